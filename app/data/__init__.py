@@ -1,0 +1,1 @@
+"""Reading replication files, profiling them, and building design matrices (pure: no web or storage)."""
