@@ -1,0 +1,1 @@
+"""Estimators and diagnostics computed from the stacked moment matrices (pure: no web or storage)."""
