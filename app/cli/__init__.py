@@ -1,0 +1,1 @@
+"""The ``secondstage`` command: one module per subcommand group."""

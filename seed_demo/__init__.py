@@ -1,0 +1,1 @@
+"""Invented demo cases: seeded scenarios with documented true effects (never manuscript data)."""
