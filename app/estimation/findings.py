@@ -50,11 +50,27 @@ class EstimatorSummary:
     code: str
     name: str
     description: str
-    n_params: int
-    df_resid: int
-    residual_std: float
+    n_params: int | None
+    df_resid: int | None
+    residual_std: float | None
     kappa: float | None = None
     source: str = ""
+    available: bool = True
+    reason: str | None = None
+
+    @classmethod
+    def unavailable(cls, code: str, name: str, description: str, reason: str) -> EstimatorSummary:
+        """An estimator that could not be computed on these data, with the reason."""
+        return cls(
+            code=code,
+            name=name,
+            description=description,
+            n_params=None,
+            df_resid=None,
+            residual_std=None,
+            available=False,
+            reason=reason,
+        )
 
 
 @dataclass(frozen=True)

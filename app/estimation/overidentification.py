@@ -47,7 +47,7 @@ NAMES = {
 
 
 def overidentification_tests(
-    moments: Moments, variance: VarianceEstimator, *, tsls: LinearFit, gmm: GmmFit
+    moments: Moments, variance: VarianceEstimator, *, tsls: LinearFit, gmm: GmmFit | None
 ) -> dict[str, TestResult]:
     """Sargan, Basmann and Hansen J, each computed or marked not applicable."""
     layout = moments.layout
@@ -82,6 +82,8 @@ def overidentification_tests(
     for key in ("sargan", "basmann"):
         results[key] = _note(results[key], "assumes homoskedastic errors; with the claim's variance estimator read hansen_j")
     try:
+        if gmm is None:
+            raise SingularMatrixError("no GMM weight")
         results["hansen_j"] = _chi2("hansen_j", hansen_j(moments, gmm), degree)
     except SingularMatrixError:
         results["hansen_j"] = TestResult.undefined(

@@ -8,11 +8,13 @@ This is the engine's single entry point, :func:`refit`. Designs other than
 from __future__ import annotations
 
 from collections.abc import Callable
+from dataclasses import dataclass
 from typing import Any
 
 import pandas as pd
 
 from app.data.design import DesignMatrices, build_design
+from app.errors import DesignError
 from app.estimation.covariance import VarianceEstimator, variance_estimator
 from app.estimation.endogeneity import endogeneity_tests
 from app.estimation.findings import EstimateRow, EstimatorSummary, Findings, TestResult
@@ -21,6 +23,7 @@ from app.estimation.fits import LinearFit
 from app.estimation.gmm import GmmFit, two_step_gmm
 from app.estimation.inference import coefficient_rows
 from app.estimation.kclass import fuller_kappa, kclass, liml_kappa
+from app.estimation.linalg import SingularMatrixError
 from app.estimation.moments import Layout, Moments
 from app.estimation.overidentification import overidentification_tests
 from app.spec import ClaimSpec, Design
@@ -60,9 +63,22 @@ ESTIMATORS: dict[str, tuple[str, str, str]] = {
 
 
 def refit(frame: pd.DataFrame, spec: ClaimSpec, *, provenance: dict[str, Any] | None = None) -> Findings:
-    """Refit ``spec`` on ``frame`` and return every estimate and diagnostic."""
+    """Refit ``spec`` on ``frame`` and return every estimate and diagnostic.
+
+    Raises
+    ------
+    DesignError
+        When the data and the claim do not give an estimable model; the
+        message names the problem.
+    """
     design_refit = DESIGN_REFITS[spec.design]
-    return design_refit(frame, spec, provenance or {})
+    try:
+        return design_refit(frame, spec, provenance or {})
+    except SingularMatrixError as error:
+        raise DesignError(
+            "the model cannot be estimated on these data: a cross-product matrix is singular "
+            f"({error}); check for regressors or instruments without variation in the sample"
+        ) from None
 
 
 def refit_instrumental(frame: pd.DataFrame, spec: ClaimSpec, provenance: dict[str, Any]) -> Findings:
@@ -71,8 +87,9 @@ def refit_instrumental(frame: pd.DataFrame, spec: ClaimSpec, provenance: dict[st
     moments = design_moments(design)
     variance = variance_estimator(spec.covariance, moments, design.data, design.clusters)
     terms = [*design.endogenous, *design.exogenous]
-    fits, gmm = fit_estimators(moments, variance, terms=terms)
-    diagnostics = iv_diagnostics(moments, variance, fits=fits, gmm=gmm, design=design)
+    fitted = fit_estimators(moments, variance, terms=terms)
+    fits = fitted.fits
+    diagnostics = iv_diagnostics(moments, variance, fits=fits, gmm=fitted.gmm, design=design)
     return Findings(
         n_obs=design.n_obs,
         design=spec.design.value,
@@ -80,7 +97,8 @@ def refit_instrumental(frame: pd.DataFrame, spec: ClaimSpec, provenance: dict[st
         focal=list(design.endogenous),
         sample=sample_summary(design),
         covariance=covariance_summary(variance, design),
-        estimators=[estimator_summary(moments, fit) for fit in fits.values()],
+        estimators=[estimator_summary(moments, fit) for fit in fits.values()]
+        + [EstimatorSummary.unavailable(code, *ESTIMATORS[code][:2], reason) for code, reason in fitted.unavailable.items()],
         estimates=estimate_rows(variance, fits.values()),
         diagnostics=diagnostics,
         warnings=list(design.sample.warnings),
@@ -95,22 +113,36 @@ def design_moments(design: DesignMatrices) -> Moments:
     return Moments(gram=design.gram, n_obs=design.n_obs, layout=layout, absorbed_dof=design.absorbed_dof)
 
 
-def fit_estimators(
-    moments: Moments, variance: VarianceEstimator, *, terms: list[str]
-) -> tuple[dict[str, LinearFit], GmmFit | None]:
+@dataclass(frozen=True)
+class EstimatorFits:
+    """The fitted estimators, the GMM weight, and estimators that could not be computed (with why)."""
+
+    fits: dict[str, LinearFit]
+    gmm: GmmFit | None
+    unavailable: dict[str, str]
+
+
+def fit_estimators(moments: Moments, variance: VarianceEstimator, *, terms: list[str]) -> EstimatorFits:
     """OLS always; 2SLS, LIML, Fuller (1 and 4) and two-step GMM when there are instruments."""
     fits = {"ols": kclass(moments, kappa=0.0, code="ols", terms=terms)}
     if moments.layout.n_instr == 0:
-        return fits, None
+        return EstimatorFits(fits=fits, gmm=None, unavailable={})
     fits["2sls"] = kclass(moments, kappa=1.0, code="2sls", terms=terms)
     liml = liml_kappa(moments)
     fits["liml"] = kclass(moments, kappa=liml, code="liml", terms=terms)
     for code, alpha in (("fuller1", 1.0), ("fuller4", 4.0)):
         kappa = fuller_kappa(moments, liml=liml, alpha=alpha)
         fits[code] = kclass(moments, kappa=kappa, code=code, terms=terms)
-    gmm = two_step_gmm(moments, variance, first_step=fits["2sls"], terms=terms)
+    try:
+        gmm = two_step_gmm(moments, variance, first_step=fits["2sls"], terms=terms)
+    except SingularMatrixError:
+        reason = (
+            "the estimated covariance of the moment conditions is singular (for example fewer clusters "
+            "than instruments), so the efficient GMM weight does not exist"
+        )
+        return EstimatorFits(fits=fits, gmm=None, unavailable={"gmm": reason})
     fits["gmm"] = gmm.fit
-    return fits, gmm
+    return EstimatorFits(fits=fits, gmm=gmm, unavailable={})
 
 
 def iv_diagnostics(
@@ -122,7 +154,7 @@ def iv_diagnostics(
     design: DesignMatrices,
 ) -> dict[str, Any]:
     """First stage, reduced form, over-identification and endogeneity tests."""
-    if gmm is None:
+    if moments.layout.n_instr == 0:
         reason = "the claim names no instruments: it is a plain regression, so only OLS applies"
         return {key: TestResult.not_applicable(key.replace("_", " "), reason) for key in IV_DIAGNOSTIC_KEYS}
     names = {"endogenous": design.endogenous, "instruments": design.instruments, "exogenous": design.exogenous}
