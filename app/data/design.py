@@ -199,7 +199,7 @@ def build_design(frame: pd.DataFrame, spec: ClaimSpec) -> DesignMatrices:
     )
     if absorbed_columns:
         keep = [*range(1 + len(endogenous) + len(instruments)), *kept_exog]
-        data = np.ascontiguousarray(data[:, keep])
+        data = np.asfortranarray(data[:, keep])
         gram = gram[np.ix_(keep, keep)]
         exogenous = [name for name in exogenous if name not in absorbed_columns]
 
@@ -319,8 +319,12 @@ def _assemble(
     exogenous: list[str],
     categorical: list[CategoricalExpansion],
 ) -> np.ndarray:
-    """Stack ``[y, X, Z, W]`` for the selected rows; W holds the intercept, controls and indicators."""
-    data = np.empty((rows.size, len(leading) + len(exogenous)), dtype=np.float64)
+    """Stack ``[y, X, Z, W]`` for the selected rows; W holds the intercept, controls and indicators.
+
+    Column-major order: filling a column is then a contiguous write, which
+    makes gathering rows in cluster order several times faster.
+    """
+    data = np.empty((rows.size, len(leading) + len(exogenous)), dtype=np.float64, order="F")
     indicators = {name: (expansion, level) for expansion in categorical for name, level in zip(expansion.names, expansion.levels)}
     labels = {e.column: frame[e.column].to_numpy()[rows].astype(str) for e in categorical}
     for j, name in enumerate([*leading, *exogenous]):
@@ -357,6 +361,7 @@ def _model_columns(spec: ClaimSpec) -> list[str]:
     names += [c.column for c in spec.categorical]
     names += [*spec.fixed_effects, *spec.cluster]
     names += [spec.weights] if spec.weights else []
+    names += [n for n in (spec.unit, spec.time) if n]
     return list(dict.fromkeys(names))
 
 
