@@ -7,7 +7,7 @@ from scipy import stats
 
 from app.estimation.findings import EstimateRow
 from app.estimation.fits import LinearFit
-from app.estimation.linalg import SingularMatrixError, inverse_pd
+from app.estimation.linalg import inverse_pd
 
 CONFIDENCE_LEVEL = 0.95
 
@@ -68,14 +68,3 @@ def f_p(statistic: float, df_num: float, df_den: float) -> float:
     """Upper-tail p-value of an F statistic."""
     return float(stats.f.sf(statistic, df_num, df_den))
 
-
-__all__ = [
-    "CONFIDENCE_LEVEL",
-    "SingularMatrixError",
-    "chi2_p",
-    "coefficient_rows",
-    "critical_value",
-    "f_p",
-    "two_sided_p",
-    "wald_statistic",
-]
