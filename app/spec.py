@@ -36,7 +36,8 @@ ESTIMATOR_CODES = ("ols", "2sls", "liml", "fuller1", "fuller4", "gmm")
 
 PANEL_ESTIMATOR_CODES = ("pooled_ols", "within", "random_effects", "within_2sls")
 SELECTION_ESTIMATOR_CODES = ("heckman_two_step", "control_function")
-ALL_ESTIMATOR_CODES = ESTIMATOR_CODES + PANEL_ESTIMATOR_CODES + SELECTION_ESTIMATOR_CODES
+MEDIATION_ESTIMATOR_CODES = ("ols_with_treatment",)
+ALL_ESTIMATOR_CODES = ESTIMATOR_CODES + PANEL_ESTIMATOR_CODES + SELECTION_ESTIMATOR_CODES + MEDIATION_ESTIMATOR_CODES
 
 
 class FilterOp(StrEnum):
@@ -257,8 +258,12 @@ class ClaimSpec(_Strict):
             raise ValueError("name at least one focal regressor in 'endogenous'")
         if self.design is Design.PANEL and not self.unit:
             raise ValueError("the panel design needs a 'unit' identifier column")
-        if self.design is Design.SELECTION and not self.selected:
-            raise ValueError("the selection design needs a 'selected' indicator column")
+        if self.design is Design.SELECTION and not (self.selected or self.instruments):
+            raise ValueError(
+                "the selection design needs a 'selected' indicator column (for a sample that people "
+                "select into), or 'instruments' that move a binary focal treatment people choose"
+            )
+        _check_design_fields(self)
         if self.design in (Design.IV, Design.PANEL) and self.instruments:
             if len(self.instruments) < len(self.endogenous):
                 raise ValueError(
@@ -309,13 +314,56 @@ def _check_mediation_roles(spec: ClaimSpec) -> None:
         )
 
 
+DESIGN_FIELDS: dict[str, tuple[Design, ...]] = {
+    "unit": (Design.PANEL,),
+    "time": (Design.PANEL,),
+    "selected": (Design.SELECTION,),
+    "selection_covariates": (Design.SELECTION,),
+    "treatment": (Design.MEDIATION,),
+    "mediator": (Design.MEDIATION,),
+}
+"""Fields that only some designs read; naming them in another design is refused."""
+
+
+def _check_design_fields(spec: ClaimSpec) -> None:
+    """Refuse fields the design does not use, and settings the panel and selection designs do not support."""
+    for field_name, designs in DESIGN_FIELDS.items():
+        if getattr(spec, field_name) and spec.design not in designs:
+            users = " or ".join(f"'{d.value}'" for d in designs)
+            raise ValueError(f"'{field_name}' is used only by the {users} design, not by '{spec.design.value}'")
+    if spec.design in (Design.PANEL, Design.SELECTION):
+        if spec.fixed_effects:
+            hint = (
+                "the unit effects come from 'unit'; add time effects as a categorical control on the time column"
+                if spec.design is Design.PANEL
+                else "add the groups as a categorical control"
+            )
+            raise ValueError(f"the {spec.design.value} design does not absorb 'fixed_effects': {hint}")
+        if spec.weights:
+            raise ValueError(f"the {spec.design.value} design does not support analytic 'weights'")
+    controls = set(spec.controls) | {c.column for c in spec.categorical}
+    for benchmark in spec.benchmarks:
+        if benchmark not in controls:
+            raise ValueError(
+                f"benchmark '{benchmark}' is not a control: the omitted cause is compared with a measured "
+                "control of the claim, so name it in 'controls' or 'categorical' too"
+            )
+
+
 def _check_no_role_overlap(spec: ClaimSpec) -> None:
     roles: dict[str, list[str]] = {
         "outcome": [spec.outcome],
         "focal regressor": spec.focal,
         "instrument": spec.excluded_instruments,
         "control": spec.controls + [c.column for c in spec.categorical],
+        "unit identifier": [spec.unit] if spec.unit else [],
+        "selection indicator": [spec.selected] if spec.selected else [],
     }
+    if spec.time and spec.time in [spec.outcome, *spec.focal, *spec.excluded_instruments, *spec.controls, spec.unit]:
+        raise ValueError(
+            f"column '{spec.time}' is the time identifier and has another role; time effects are added as "
+            "a categorical control on it"
+        )
     seen: dict[str, str] = {}
     for role, columns in roles.items():
         for column in columns:

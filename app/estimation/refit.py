@@ -13,7 +13,7 @@ from typing import Any
 
 import pandas as pd
 
-from app.data.design import DesignMatrices, build_design
+from app.data.design import INTERCEPT, DesignMatrices, build_design
 from app.errors import DesignError
 from app.estimation.covariance import VarianceEstimator, variance_estimator
 from app.estimation.endogeneity import endogeneity_tests
@@ -26,6 +26,9 @@ from app.estimation.kclass import fuller_kappa, kclass, liml_kappa
 from app.estimation.linalg import SingularMatrixError
 from app.estimation.moments import Layout, Moments
 from app.estimation.overidentification import overidentification_tests
+from app.estimation.panel import ESTIMATORS as PANEL_ESTIMATORS
+from app.estimation.panel import refit_panel
+from app.estimation.sensitivity import benchmark_groups, sensitivity_diagnostics
 from app.spec import ClaimSpec, Design
 
 ESTIMATORS: dict[str, tuple[str, str, str]] = {
@@ -60,6 +63,7 @@ ESTIMATORS: dict[str, tuple[str, str, str]] = {
         "Hansen (1982)",
     ),
 }
+ESTIMATORS.update(PANEL_ESTIMATORS)
 
 
 def refit(frame: pd.DataFrame, spec: ClaimSpec, *, provenance: dict[str, Any] | None = None) -> Findings:
@@ -90,6 +94,16 @@ def refit_instrumental(frame: pd.DataFrame, spec: ClaimSpec, provenance: dict[st
     fitted = fit_estimators(moments, variance, terms=terms)
     fits = fitted.fits
     diagnostics = iv_diagnostics(moments, variance, fits=fits, gmm=fitted.gmm, design=design)
+    diagnostics.update(
+        sensitivity_diagnostics(
+            moments,
+            columns=design.columns,
+            focal=design.endogenous,
+            baseline=[INTERCEPT] if INTERCEPT in design.exogenous else [],
+            benchmarks=benchmark_groups(spec.benchmarks, design.columns),
+            options=spec.sensitivity,
+        )
+    )
     return Findings(
         n_obs=design.n_obs,
         design=spec.design.value,
@@ -239,4 +253,5 @@ def sample_summary(design: DesignMatrices) -> dict[str, Any]:
 DESIGN_REFITS: dict[Design, Callable[[pd.DataFrame, ClaimSpec, dict[str, Any]], Findings]] = {
     Design.IV: refit_instrumental,
     Design.REGRESSION: refit_instrumental,
+    Design.PANEL: refit_panel,
 }
