@@ -22,8 +22,10 @@ Root choice (ours; every root is reported): each real root implies a
 variance of the observed-control index ``s1 = o + (a + b)^2/sx - b^2/tx``
 and of the unobserved index ``s2 = b s1 / (delta a)``, with ``b = nu tx``
 and ``a = (d + nu) sx - nu tx`` the covariances of D with the two indices. A
-root is admissible when both variances are positive; among admissible roots
-the one closest to the controlled estimate (smallest ``|nu|``) is reported.
+root is admissible when both variances are positive and finite (a root with
+``a = 0`` - always present with a single control - would need an infinitely
+variable unobserved cause); among admissible roots the one closest to the
+controlled estimate (smallest ``|nu|``) is reported.
 
 The approximate formula of Oster (2019)
 ``beta* ~ bt - delta d (R_max - Rt) / (Rt - R0)`` is reported beside it, with
@@ -52,6 +54,8 @@ SOURCE = "Oster (2019), JBES 37(2), Proposition 2"
 NAME = "Bias-adjusted estimate under proportional selection"
 NULL = "selection on unobservables as strong as delta times selection on observables leaves the sign of the effect"
 IMAGINARY_TOLERANCE = 1e-9
+ROUNDING = 1e-9
+"""Relative size below which a covariance is taken as zero (a root that puts no weight on the observed controls)."""
 
 
 def proportional_selection(
@@ -207,7 +211,7 @@ class OsterSystem:
                     "bias": bias,
                     "observed_index_variance": s1,
                     "unobserved_index_variance": s2,
-                    "admissible": bool(s1 > 0 and s2 > 0),
+                    "admissible": bool(s1 > 0 and 0 < s2 < math.inf),
                 }
             )
         return results
@@ -218,9 +222,10 @@ class OsterSystem:
         b = bias * tx
         a = (self.gap + bias) * sx - bias * tx
         s1 = self.observed + (a + b) ** 2 / sx - b * b / tx
+        size = sx * (abs(self.gap) + abs(bias)) + tx * abs(bias)
         if b == 0:
             return s1, 0.0 if self.unexplained == 0 else math.nan
-        if delta == 0 or a == 0:
+        if delta == 0 or abs(a) <= ROUNDING * size:
             return s1, math.inf
         return s1, b * s1 / (delta * a)
 

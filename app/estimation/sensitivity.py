@@ -80,7 +80,7 @@ class FocalRegression:
 
     def adjusted(self, r2dz: float, r2yz: float, *, alpha: float) -> dict[str, float]:
         """Estimate moved towards zero by the bias, its standard error, t and interval."""
-        estimate = math.copysign(abs(self.estimate) - self.bias(r2dz, r2yz), self.estimate)
+        estimate = math.copysign(1.0, self.estimate) * (abs(self.estimate) - self.bias(r2dz, r2yz))
         std_error = self.std_error * math.sqrt((1.0 - r2yz) / (1.0 - r2dz)) * math.sqrt(self.df / (self.df - 1))
         critical = float(stats.t.ppf(1.0 - alpha / 2, self.df - 1))
         return {
