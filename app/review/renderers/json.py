@@ -1,0 +1,31 @@
+"""JSON report: the findings with the keys ``checklist`` and ``verdict`` added."""
+
+from __future__ import annotations
+
+import json
+import math
+from collections.abc import Mapping
+from typing import Any
+
+from app.review.checklist import Checklist
+
+
+def render_json(findings: Mapping[str, Any], checklist: Checklist, *, data_file_name: str) -> str:
+    """Findings plus checklist and verdict, as strict JSON (no NaN or Infinity).
+
+    ``data_file_name`` is already in the findings' provenance; it is accepted
+    for the common renderer signature.
+    """
+    document = {**findings, **checklist.to_dict()}
+    return json.dumps(_strict(document), indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+
+
+def _strict(value: Any) -> Any:
+    """Non-finite numbers become null, as everywhere in the findings."""
+    if isinstance(value, float) and not math.isfinite(value):
+        return None
+    if isinstance(value, Mapping):
+        return {str(key): _strict(item) for key, item in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_strict(item) for item in value]
+    return value

@@ -1,0 +1,112 @@
+"""Plain-text report for the terminal.
+
+Layout: a heading block (claim, file, sample, standard errors), the verdict,
+the estimates of each focal coefficient under every estimator with intervals,
+the key diagnostics, then the checklist section by section, and the caution.
+Lines are wrapped to :data:`WIDTH` columns; nothing but ASCII punctuation is
+used for structure, so the report reads the same in any terminal or e-mail.
+"""
+
+from __future__ import annotations
+
+import textwrap
+from collections.abc import Mapping
+from typing import Any
+
+from app.review.checklist import Checklist, ChecklistItem
+from app.review.formatting import count, number, p_value
+from app.review.renderers.common import (
+    CAUTION,
+    PRODUCT,
+    claimed_sentence,
+    estimate_lines,
+    interval_text,
+    key_diagnostics,
+    model_lines,
+    sample_lines,
+    standing_words,
+)
+from app.review.view import FindingsView
+
+WIDTH = 96
+INDENT = "    "
+
+
+def wrap(text: str, *, indent: str = "", hanging: str | None = None) -> list[str]:
+    """Wrap ``text`` to the report width."""
+    return textwrap.wrap(
+        text, width=WIDTH, initial_indent=indent, subsequent_indent=indent if hanging is None else hanging,
+        break_on_hyphens=False,
+    ) or [indent]
+
+
+def heading(title: str) -> list[str]:
+    return ["", title.upper(), "=" * len(title)]
+
+
+def render_text(findings: Mapping[str, Any], checklist: Checklist, *, data_file_name: str) -> str:
+    """The report as plain text."""
+    view = FindingsView(findings)
+    verdict = checklist.verdict
+    lines = [f"{PRODUCT} re-analysis", ""]
+    lines += wrap(f"Claim:  {view.title}", hanging=" " * 8)
+    lines += wrap(f"File:   {data_file_name} ({count(view.n_obs)} observations used)", hanging=" " * 8)
+    lines += wrap(claimed_sentence(view))
+    lines += heading(f"Verdict: {verdict.label}")
+    lines += wrap(verdict.summary)
+    if verdict.drivers:
+        lines += wrap(f"Driven by: {', '.join(verdict.drivers)}")
+    lines += heading("Model and sample")
+    for sentence in [*model_lines(view), *sample_lines(view)]:
+        lines += wrap(sentence, indent="  ", hanging="    ")
+    lines += _estimates(view)
+    diagnostics = key_diagnostics(view)
+    if diagnostics:
+        lines += heading("Key diagnostics")
+        label_width = min(max(len(label) for label, _ in diagnostics) + 2, 44)
+        for label, value in diagnostics:
+            lines += wrap(f"{label.ljust(label_width, '.')} {value}", indent="  ", hanging="  " + " " * (label_width + 1))
+    lines += heading("Checklist")
+    for _, title, items in checklist.sections():
+        lines += ["", f"-- {title} " + "-" * max(0, WIDTH - len(title) - 4)]
+        for item in items:
+            lines += _item(item)
+    lines += ["", "-" * WIDTH]
+    for sentence in CAUTION:
+        lines += wrap(sentence)
+    return "\n".join(lines) + "\n"
+
+
+def _estimates(view: FindingsView) -> list[str]:
+    lines_by_term: dict[str, list] = {}
+    for line in estimate_lines(view):
+        lines_by_term.setdefault(line.term, []).append(line)
+    out: list[str] = []
+    for term, lines in lines_by_term.items():
+        out += heading(f"Effect of {term} on {view.outcome}")
+        out.append(f"  standard errors: {view.variance_label}")
+        header = f"  {'':2}{'estimator':<20}{'estimate':>12}{'std. error':>13}   {'95% interval':<28}{'p-value':>10}"
+        out += ["", header, "  " + "-" * (len(header) - 2)]
+        for line in lines:
+            marker = "->" if line.claimed else ""
+            out.append(
+                f"  {marker:2}{line.name[:19]:<20}{number(line.estimate):>12}{number(line.std_error):>13}   "
+                f"{interval_text(line):<28}{p_value(line.p_value).removeprefix('p = '):>10}"
+            )
+        if any(line.claimed for line in lines):
+            out.append("  (-> the estimator the claim reports)")
+    return out
+
+
+def _item(item: ChecklistItem) -> list[str]:
+    tag = f"[{standing_words(item)}]"
+    out = [""]
+    out += wrap(f"{item.item}  {tag}", indent="  ", hanging="    ")
+    out += wrap(item.evidence, indent=INDENT)
+    if item.question and item.effective_standing not in ("sound", "not_applicable"):
+        out += wrap(f"Ask: {item.question}", indent=INDENT, hanging=INDENT + "     ")
+    if item.judgement and item.judgement.note:
+        out += wrap(f"Reviewer's note: {item.judgement.note}", indent=INDENT)
+    if item.effective_standing != "not_applicable":
+        out += wrap(f"Rule: {item.rule} ({item.source})", indent=INDENT)
+    return out

@@ -1,0 +1,255 @@
+"""Section ``design``: checks that belong to one study design.
+
+* ``mediation``: a randomized experiment whose claim is about a measured
+  mediator. The regression of the outcome on the mediator is not protected
+  by the randomization: anything that moves both mediator and outcome biases
+  it (Bullock, Green & Ha 2010). Instrumenting the mediator with the
+  randomized arms removes that bias only if the treatment moves the outcome
+  through the mediator alone.
+* ``panel``: random effects assume the unit effects are unrelated to the
+  regressors; the Mundlak regression tests that with robust errors (Mundlak
+  1978; Wooldridge 2010, sec. 10.7.3).
+* ``selection``: a sample that people select into; the test of no selection
+  is the inverse Mills ratio term of the Heckman two-step fit, whose
+  identification is fragile without a variable excluded from the outcome
+  equation (Heckman 1979; Puhani 2000).
+
+References
+----------
+Bullock, J. G., Green, D. P. and Ha, S. E. (2010). Yes, but what's the mechanism? (Don't expect an
+easy answer). Journal of Personality and Social Psychology 98(4), 550-558.
+Mundlak, Y. (1978). On the pooling of time series and cross section data. Econometrica 46(1), 69-85.
+Wooldridge, J. M. (2010). Econometric Analysis of Cross Section and Panel Data, 2nd ed. MIT Press.
+Heckman, J. J. (1979). Sample selection bias as a specification error. Econometrica 47(1), 153-161.
+Puhani, P. A. (2000). The Heckman correction for sample selection and its critique. Journal of
+Economic Surveys 14(1), 53-68.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+
+from app.review.formatting import as_number, interval, number, p_value, statistic
+from app.review.rules.base import SIGNIFICANCE, Outcome, Rule, not_applicable, significant, unavailable
+from app.review.view import NAIVE_ESTIMATORS, FindingsView
+
+SECTION = "design"
+TITLE = "Design-specific checks"
+
+
+def _only_for(view: FindingsView, design: str, words: str) -> Outcome | None:
+    if view.design == design:
+        return None
+    return not_applicable(f"The claim is not {words} (design '{view.design}').")
+
+
+def assess_mediator(view: FindingsView) -> Outcome:
+    if (skip := _only_for(view, "mediation", "about a measured mediator in an experiment")) is not None:
+        return skip
+    mediator = view.focal_term
+    treatments = ", ".join(view.instruments) or "the randomized treatment"
+    naive, instrumented = view.row("ols"), view.row("2sls")
+    parts = []
+    if naive:
+        parts.append(
+            f"Naive regression of {view.outcome} on {mediator}: {number(naive.get('estimate'))} "
+            f"{interval(naive.get('ci_low'), naive.get('ci_high'))}."
+        )
+    if instrumented:
+        parts.append(
+            f"{mediator} instrumented by {treatments} (2SLS): {number(instrumented.get('estimate'))} "
+            f"{interval(instrumented.get('ci_low'), instrumented.get('ci_high'))}."
+        )
+    for entry in view.first_stages():
+        parts.append(f"First-stage F of the treatment on {mediator}: {number(entry.get('statistic'))}.")
+    evidence = " ".join(parts) or "The findings hold no estimate of the mediator's effect."
+    if view.claimed_estimator in NAIVE_ESTIMATORS:
+        return Outcome(
+            "serious",
+            evidence + f" Randomizing {treatments} does not randomize {mediator}.",
+            question=(
+                f"The claim about {mediator} rests on a regression that the randomization does not protect: anything "
+                f"that moves both {mediator} and {view.outcome} biases it. Can the authors estimate the mediator's "
+                f"effect with the randomized {treatments} as instrument, or manipulate {mediator} directly?"
+            ),
+        )
+    return Outcome(
+        "concern",
+        evidence + f" This needs {treatments} to affect {view.outcome} only through {mediator}.",
+        question=(
+            f"The instrumented estimate assumes that {treatments} changes {view.outcome} only through {mediator}. "
+            "What other consequences of the treatment could reach the outcome, and how are they ruled out?"
+        ),
+    )
+
+
+def assess_mediator_manipulated(view: FindingsView) -> Outcome:
+    if (skip := _only_for(view, "mediation", "about a measured mediator in an experiment")) is not None:
+        return skip
+    return Outcome(
+        "reviewer_judgement",
+        f"Randomized: {', '.join(view.instruments) or 'not named'}; mediator: {view.focal_term}.",
+        question=(
+            f"Was {view.focal_term} itself manipulated in any arm of the experiment, or only measured? If only "
+            "measured, what supports reading its association with the outcome as causal?"
+        ),
+    )
+
+
+def assess_panel_effects(view: FindingsView) -> Outcome:
+    if (skip := _only_for(view, "panel", "fitted on panel data")) is not None:
+        return skip
+    found = view.lookup("mundlak")
+    if (skip := unavailable(found)) is not None:
+        return skip
+    test = found.value
+    p = as_number(test.get("p_value"))
+    parts = [
+        f"Mundlak test that the unit effects are unrelated to the regressors ({view.variance_label}): "
+        f"{statistic(test.get('statistic'), distribution=test.get('distribution'), df=test.get('df'))}, {p_value(p)}."
+    ]
+    hausman = view.lookup("hausman_fe_re")
+    if hausman.usable and isinstance(hausman.value, Mapping):
+        parts.append(
+            f"Classical Hausman test: {statistic(hausman.value.get('statistic'), distribution=hausman.value.get('distribution'), df=hausman.value.get('df'))}, "
+            f"{p_value(hausman.value.get('p_value'))}."
+        )
+    for code in ("within", "random_effects", "pooled_ols"):
+        row = view.row(code)
+        if row:
+            parts.append(f"{view.estimator_name(code)}: {number(row.get('estimate'))}.")
+    evidence = " ".join(parts)
+    relies_on_unit_independence = view.claimed_estimator in ("random_effects", "pooled_ols")
+    if relies_on_unit_independence and significant(p):
+        return Outcome(
+            "serious",
+            evidence,
+            question=(
+                "The unit effects are correlated with the regressors, so random effects (or pooled OLS) mix the "
+                "effect with stable differences between units. Do the conclusions hold with fixed effects?"
+            ),
+        )
+    return Outcome("sound", evidence)
+
+
+def assess_effects_sampling(view: FindingsView) -> Outcome:
+    if (skip := _only_for(view, "panel", "fitted on panel data")) is not None:
+        return skip
+    return Outcome(
+        "reviewer_judgement",
+        f"Unit identifier: {view.claim_name('unit') or 'not named'}; time identifier: {view.claim_name('time') or 'not named'}; "
+        f"claimed estimator: {view.estimator_name(view.claimed_estimator)}.",
+        question=(
+            "Are the units a sample from a larger population the claim generalises to (which random effects "
+            "assume), or the population itself? Why is the chosen model the right one for that sampling design?"
+        ),
+    )
+
+
+def assess_selection(view: FindingsView) -> Outcome:
+    if (skip := _only_for(view, "selection", "about a self-selected sample")) is not None:
+        return skip
+    found = view.lookup("selection")
+    if (skip := unavailable(found)) is not None:
+        return skip
+    test = found.value
+    p = as_number(test.get("p_value"))
+    evidence = (
+        f"Test of no selection (inverse Mills ratio term, {view.variance_label}): "
+        f"{statistic(test.get('statistic'), distribution=test.get('distribution'), df=test.get('df'))}, {p_value(p)}; "
+        f"rho = {number(test.get('rho'))}, sigma = {number(test.get('sigma'))}."
+    )
+    excluded = _excluded_from_outcome(view)
+    if view.claimed_estimator in NAIVE_ESTIMATORS and significant(p):
+        return Outcome(
+            "serious",
+            evidence,
+            question=(
+                "The selection term is significant, so an analysis of the selected sample alone is biased. Do the "
+                "conclusions hold after correcting for selection?"
+            ),
+        )
+    if not excluded:
+        return Outcome(
+            "concern",
+            evidence + " No variable enters the selection equation but not the outcome equation.",
+            question=(
+                "The selection correction is identified only through the shape of the normal distribution. Which "
+                "variable affects selection but not the outcome?"
+            ),
+        )
+    return Outcome("sound", evidence + f" Excluded from the outcome equation: {', '.join(excluded)}.")
+
+
+def _excluded_from_outcome(view: FindingsView) -> list[str]:
+    outcome_side = {*view.focal_terms, *view.claim_names("controls")}
+    outcome_side |= {str(c.get("column")) for c in view.claim_entries("categorical")}
+    return [c for c in view.claim_names("selection_covariates") if c not in outcome_side]
+
+
+RULES = (
+    Rule(
+        id="design.mediator",
+        title="A claim about a measured mediator is protected from shared causes",
+        rule=(
+            "A naive regression on a measured mediator is serious; an estimate instrumented by the randomized arms "
+            "is a concern until the only-through-the-mediator assumption is argued."
+        ),
+        source="Bullock, Green & Ha (2010)",
+        explanation=(
+            "Randomizing a treatment makes treated and control groups comparable, but not people with high and low "
+            "values of a mediator the treatment moves. Whatever else drives the mediator can also drive the outcome."
+        ),
+        assess=assess_mediator,
+    ),
+    Rule(
+        id="design.mediator_manipulated",
+        title="The mediator was manipulated, not only measured",
+        rule="Judge from the experimental design whether the mediator itself was randomized.",
+        source="Bullock, Green & Ha (2010)",
+        explanation=(
+            "Only a randomized mediator gives its effect the protection of the experiment. A measured mediator is "
+            "observational data inside an experiment."
+        ),
+        assess=assess_mediator_manipulated,
+    ),
+    Rule(
+        id="design.panel_effects",
+        title="Unit effects are unrelated to the regressors, if the claim assumes so",
+        rule=(
+            f"A claim fitted by random effects or pooled OLS is serious when the robust Mundlak test rejects "
+            f"(p below {SIGNIFICANCE})."
+        ),
+        source="Mundlak (1978); Wooldridge (2010), sec. 10.7.3; Hausman (1978)",
+        explanation=(
+            "Random effects treat each unit's stable traits as noise unrelated to the regressors. If those traits "
+            "also drive the regressor, only comparisons within units remove them."
+        ),
+        assess=assess_panel_effects,
+    ),
+    Rule(
+        id="design.effects_sampling",
+        title="Fixed or random effects fit the sampling design",
+        rule="Judge from how the units were sampled and what population the claim is about.",
+        source="Wooldridge (2010), ch. 10",
+        explanation=(
+            "Fixed effects answer a question about the units in the data; random effects about a population they "
+            "were drawn from, under stronger assumptions. Which fits depends on the study, not on a test."
+        ),
+        assess=assess_effects_sampling,
+    ),
+    Rule(
+        id="design.selection",
+        title="Self-selection into the sample is accounted for",
+        rule=(
+            f"Serious when the claim uses the selected sample alone and the test of no selection rejects (p below "
+            f"{SIGNIFICANCE}); a concern when the correction has no variable excluded from the outcome equation."
+        ),
+        source="Heckman (1979); Puhani (2000)",
+        explanation=(
+            "If people enter the sample for reasons related to the outcome, the sample's relationship differs from "
+            "the population's. The correction needs something that affects entry but not the outcome."
+        ),
+        assess=assess_selection,
+    ),
+)

@@ -1,0 +1,283 @@
+"""Section ``omitted_causes``: could a cause left out of the model drive the estimate?
+
+Three automatic readings and one for the reviewer:
+
+* with instruments, whether the naive (OLS) and instrumented estimates
+  differ beyond chance (control-function test, Hausman 1978);
+* without a credible instrument, how strong an omitted cause would have to be
+  to overturn the estimate (Cinelli & Hazlett 2020) and how much selection on
+  unobservables, relative to observables, would bring it to zero (Oster 2019);
+* whether outcome and regressor come from the same source or moment (common
+  method; Podsakoff et al. 2003), which no statistic can settle.
+
+References
+----------
+Hausman, J. A. (1978). Specification tests in econometrics. Econometrica 46(6), 1251-1271.
+Wooldridge, J. M. (2010). Econometric Analysis of Cross Section and Panel Data, 2nd ed., sec. 6.3.1.
+Cinelli, C. and Hazlett, C. (2020). Making sense of sensitivity: extending omitted variable bias.
+Journal of the Royal Statistical Society B 82(1), 39-67.
+Oster, E. (2019). Unobservable selection and coefficient stability: theory and evidence.
+Journal of Business & Economic Statistics 37(2), 187-204.
+Podsakoff, P. M., MacKenzie, S. B., Lee, J.-Y. and Podsakoff, N. P. (2003). Common method biases in
+behavioral research. Journal of Applied Psychology 88(5), 879-903.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from typing import Any
+
+from app.review.formatting import as_number, interval, number, p_value, setting, statistic
+from app.review.rules.base import (
+    SIGNIFICANCE,
+    Outcome,
+    Rule,
+    needs_instruments,
+    not_applicable,
+    significant,
+    unavailable,
+)
+from app.review.view import FindingsView
+
+SECTION = "omitted_causes"
+TITLE = "Omitted common causes"
+
+BENCHMARK_MULTIPLE = 1.0
+"""Cinelli & Hazlett (2020): an omitted cause as strong as the strongest observed benchmark covariate."""
+
+SELECTION_RATIO = 1.0
+"""Oster (2019): selection on unobservables as strong as on observables (delta = 1)."""
+
+
+def assess_naive_vs_instrumented(view: FindingsView) -> Outcome:
+    if (skip := needs_instruments(view)) is not None:
+        return skip
+    found = view.lookup("control_function")
+    if (skip := unavailable(found)) is not None:
+        return skip
+    test = found.value
+    p = as_number(test.get("p_value"))
+    naive = view.row("ols")
+    instrumented_code = view.claimed_estimator if view.claim_uses_instruments else "2sls"
+    instrumented = view.row(instrumented_code)
+    parts = []
+    if naive and instrumented:
+        parts.append(
+            f"{view.focal_term}: OLS {number(naive.get('estimate'))} against "
+            f"{view.estimator_name(instrumented_code)} {number(instrumented.get('estimate'))}."
+        )
+    parts.append(
+        f"Control-function test that the focal regressor is exogenous ({view.variance_label} variance): "
+        f"{statistic(test.get('statistic'), distribution=test.get('distribution'), df=test.get('df'))}, {p_value(p)}."
+    )
+    parts += _common_cause_size(view)
+    evidence = " ".join(parts)
+    if view.claim_is_naive and significant(p):
+        return Outcome(
+            "serious",
+            evidence,
+            question=(
+                "The instrumented estimate differs from the OLS estimate beyond chance, which points to an omitted "
+                "common cause. Why do the authors base the claim on OLS, and how do they rule out that cause?"
+            ),
+        )
+    return Outcome("sound", evidence)
+
+
+def _common_cause_size(view: FindingsView) -> list[str]:
+    """The sign and size of the endogeneity, from the residual correlations."""
+    parts = []
+    found = view.lookup("disturbance_correlation")
+    if found.usable and isinstance(found.value, Mapping):
+        entry = found.value
+        parts.append(
+            f"Estimated correlation of the first-stage and outcome disturbances (system fit): "
+            f"{number(entry.get('statistic', entry.get('estimate')))}, 95% interval "
+            f"{interval(entry.get('ci_low'), entry.get('ci_high'))}."
+        )
+        return parts
+    residual = view.lookup("residual_correlation")
+    if residual.usable and isinstance(residual.value, Mapping):
+        for entry in residual.value.get("by_regressor") or []:
+            if isinstance(entry, Mapping):
+                parts.append(
+                    f"First-stage and 2SLS residuals of {entry.get('regressor')} correlate at "
+                    f"{number(entry.get('correlation'))}."
+                )
+    return parts
+
+
+def assess_sensitivity(view: FindingsView) -> Outcome:
+    found = view.lookup_for("omitted_cause_sensitivity")
+    if (skip := unavailable(found)) is not None:
+        return skip
+    data = found.value
+    evidence = _sensitivity_evidence(data)
+    if view.claim_uses_instruments:
+        return not_applicable(
+            "The claim rests on instruments, so the sensitivity of the regression without them is shown for "
+            "reference only. " + evidence
+        )
+    bounds = [b for b in _benchmark_bounds(data) if b.get("available") and as_number(b.get("multiplier")) is not None]
+    if not bounds:
+        return Outcome(
+            "reviewer_judgement",
+            evidence + " No benchmark covariate was named, so the reviewer judges whether such a cause is plausible.",
+            question=(
+                "Which observed covariate do the authors consider the strongest determinant of both the regressor "
+                "and the outcome, and could an omitted cause of that strength overturn the estimate?"
+            ),
+        )
+    overturned = [b for b in bounds if _bound_overturns(b)]
+    at_benchmark = [b for b in overturned if as_number(b.get("multiplier")) <= BENCHMARK_MULTIPLE]
+    if at_benchmark:
+        names = ", ".join(sorted({str(b.get("benchmark")) for b in at_benchmark}))
+        return Outcome(
+            "serious",
+            evidence,
+            question=(
+                f"An omitted cause no stronger than {names} would make the estimate indistinguishable from zero. "
+                "What rules out such a cause?"
+            ),
+        )
+    if overturned:
+        weakest = min(overturned, key=lambda b: as_number(b.get("multiplier")))
+        return Outcome(
+            "concern",
+            evidence,
+            question=(
+                f"An omitted cause {setting(weakest.get('multiplier'))} times as strong as {weakest.get('benchmark')} "
+                "would make the estimate indistinguishable from zero. Can the authors argue that no such cause exists?"
+            ),
+        )
+    return Outcome("sound", evidence)
+
+
+def _benchmark_bounds(data: Mapping[str, Any]) -> list[Mapping[str, Any]]:
+    bounds = data.get("benchmark_bounds")
+    return [b for b in bounds if isinstance(b, Mapping)] if isinstance(bounds, list) else []
+
+
+def _bound_overturns(bound: Mapping[str, Any]) -> bool:
+    """True when the adjusted interval contains zero."""
+    low, high = as_number(bound.get("adjusted_ci_low")), as_number(bound.get("adjusted_ci_high"))
+    return low is None or high is None or low <= 0.0 <= high
+
+
+def _sensitivity_evidence(data: Mapping[str, Any]) -> str:
+    q, alpha = data.get("q", 1), data.get("alpha", SIGNIFICANCE)
+    parts = [
+        f"OLS estimate {number(data.get('estimate'))} (classical s.e. {number(data.get('std_error'))}, as the method "
+        f"assumes); partial R-squared of the focal regressor with the outcome: {number(data.get('partial_r2_outcome'))}.",
+        f"Robustness value RV_q (q = {setting(q)}): {number(data.get('robustness_value_q'))}; "
+        f"RV_q,alpha (alpha = {setting(alpha)}): {number(data.get('robustness_value_q_alpha'))}.",
+    ]
+    for bound in _benchmark_bounds(data):
+        head = f"A cause {setting(bound.get('multiplier'))} x as strong as {bound.get('benchmark')}"
+        if bound.get("available"):
+            parts.append(
+                f"{head}: adjusted estimate {number(bound.get('adjusted_estimate'))}, interval "
+                f"{interval(bound.get('adjusted_ci_low'), bound.get('adjusted_ci_high'))}."
+            )
+        else:
+            parts.append(f"{head}: {bound.get('reason') or 'not computed'}.")
+    return " ".join(parts)
+
+
+def assess_proportional_selection(view: FindingsView) -> Outcome:
+    found = view.lookup_for("proportional_selection")
+    if (skip := unavailable(found)) is not None:
+        return skip
+    data = found.value
+    delta = as_number(data.get("delta_for_zero"))
+    evidence = (
+        f"Bias-adjusted estimate beta* = {number(data.get('beta_star'))} (delta = {setting(data.get('delta', 1))}, "
+        f"R_max = {number(data.get('r2_max'))}; controlled estimate {number(data.get('controlled_estimate'))}); "
+        f"selection ratio delta that brings the estimate to zero: {number(delta)}."
+    )
+    warnings = [str(w) for w in data.get("warnings") or []]
+    if warnings:
+        evidence += " Note: " + "; ".join(warnings) + "."
+    if view.claim_uses_instruments:
+        return not_applicable(
+            "The claim rests on instruments; shown for the regression without them, for reference only. " + evidence
+        )
+    too_small = delta is not None and abs(delta) < SELECTION_RATIO
+    if too_small or data.get("identified_set_excludes_zero") is False:
+        return Outcome(
+            "concern",
+            evidence,
+            question=(
+                "Selection on unobservables no stronger than on the observed controls could explain the whole "
+                "estimate. Why is stronger selection implausible here, and what R_max do the authors consider?"
+            ),
+        )
+    return Outcome("sound", evidence)
+
+
+def assess_shared_source(view: FindingsView) -> Outcome:
+    return Outcome(
+        "reviewer_judgement",
+        f"Outcome: {view.outcome}; focal regressor(s): {', '.join(view.focal_terms) or 'not named'}. "
+        "The data cannot show how or when they were measured.",
+        question=(
+            "Were the outcome and the focal regressor measured at the same time, by the same instrument or from the "
+            "same respondents? If so, how do the authors rule out a shared measurement cause (common method)?"
+        ),
+    )
+
+
+RULES = (
+    Rule(
+        id="omitted_causes.naive_vs_instrumented",
+        title="Naive and instrumented estimates agree",
+        rule=(
+            f"A control-function test with p below {SIGNIFICANCE} says the focal regressor is correlated with the "
+            "error; a claim that rests on OLS is then in doubt."
+        ),
+        source="Hausman (1978); Wooldridge (2010), sec. 6.3.1",
+        explanation=(
+            "If something not in the model drives both the regressor and the outcome, the plain regression mixes its "
+            "effect into the estimate. The instruments give a second estimate free of that mix, and a large gap "
+            "between the two is the sign of such a cause."
+        ),
+        assess=assess_naive_vs_instrumented,
+    ),
+    Rule(
+        id="omitted_causes.sensitivity",
+        title="An omitted cause as strong as an observed one would not overturn the estimate",
+        rule=(
+            "The interval adjusted for an omitted cause as strong as the strongest benchmark covariate (k = 1) must "
+            "exclude zero (serious if not); concern if a cause 2 or 3 times as strong would include it."
+        ),
+        source="Cinelli & Hazlett (2020)",
+        explanation=(
+            "This asks how much of the regressor and of the outcome an unmeasured cause would have to explain to "
+            "erase the result. Comparing that with an observed covariate tells whether such a cause is plausible."
+        ),
+        assess=assess_sensitivity,
+    ),
+    Rule(
+        id="omitted_causes.proportional_selection",
+        title="Selection on unobservables would have to be stronger than on observables",
+        rule=f"The selection ratio delta that brings the estimate to zero must be at least {SELECTION_RATIO:g} in size.",
+        source="Oster (2019)",
+        explanation=(
+            "When adding controls moves the estimate and raises the R-squared, unobserved controls would likely move "
+            "it further. The ratio says how strong that unobserved selection must be, compared with the observed, to "
+            "explain the whole effect."
+        ),
+        assess=assess_proportional_selection,
+    ),
+    Rule(
+        id="omitted_causes.shared_source",
+        title="Outcome and regressor do not share a measurement source",
+        rule="No statistic can settle this; judge from the manuscript's description of the measures.",
+        source="Podsakoff, MacKenzie, Lee & Podsakoff (2003)",
+        explanation=(
+            "When the same person reports both the cause and the effect at the same moment, mood or style can move "
+            "both. That shared source acts like an omitted common cause."
+        ),
+        assess=assess_shared_source,
+    ),
+)

@@ -1,0 +1,65 @@
+"""Exclusion and independence: balance at 5%, the break-even direct effect against the reviewer's bound.
+
+Balance checks are common practice borrowed from randomized experiments; the
+break-even direct effect is that of Conley, Hansen & Rossi (2012). Exclusion,
+as-if-random assignment and monotonicity are left to the reviewer.
+"""
+
+from __future__ import annotations
+
+import pytest
+
+from tests.review.findings_builder import iv_findings, result, with_claim, with_diagnostic
+
+BALANCE = "exclusion.balance"
+DIRECT = "exclusion.direct_effect"
+
+
+def balance(p_value: float) -> dict:
+    return result(
+        None,
+        None,
+        by_covariate=[
+            {"covariate": "age_at_hire", "statistic": 1.1, "p_value": 0.33, "df": [2, 495], "distribution": "F"},
+            {"covariate": "prior_sales", "statistic": 3.0, "p_value": p_value, "df": [2, 495], "distribution": "F"},
+        ],
+    )
+
+
+@pytest.mark.parametrize(("p_value", "standing"), [(0.05, "sound"), (0.0499, "concern"), (0.0501, "sound")])
+def test_instruments_predicting_a_pre_treatment_covariate(item, p_value, standing):
+    findings = with_claim(iv_findings(), pre_treatment=["age_at_hire", "prior_sales"])
+    found = item(with_diagnostic(findings, "instrument_balance", balance(p_value)), BALANCE)
+    assert found.standing == standing
+    if standing == "concern":
+        assert "prior_sales" in found.question and "age_at_hire" not in found.question
+
+
+@pytest.mark.parametrize(("break_even", "standing"), [(0.3, "serious"), (0.2999, "serious"), (0.3001, "sound")])
+def test_break_even_direct_effect_against_the_plausible_bound(item, break_even, standing):
+    findings = with_claim(iv_findings(), direct_effect_bound=0.3)
+    findings = with_diagnostic(findings, "plausibly_exogenous", result(None, None, break_even_delta=break_even))
+    assert item(findings, DIRECT).standing == standing
+
+
+def test_without_a_bound_the_reviewer_judges_the_break_even_value(item):
+    findings = with_diagnostic(iv_findings(), "plausibly_exogenous", result(None, None, break_even_delta=0.12))
+    found = item(findings, DIRECT)
+    assert found.standing == "reviewer_judgement"
+    assert "0.1200" in found.evidence
+
+
+@pytest.mark.parametrize("item_id", ["exclusion.argument", "exclusion.as_if_random", "exclusion.monotonicity"])
+def test_untestable_assumptions_go_to_the_reviewer_with_a_question(item, item_id):
+    found = item(iv_findings(), item_id)
+    assert found.standing == "reviewer_judgement"
+    assert "schedule_lottery" in found.question
+
+
+def test_a_plain_regression_has_no_instrument_to_check(item):
+    findings = with_claim(iv_findings(), instruments=[], claimed={"estimator": "ols"})
+    findings["sample"]["columns"]["instruments"] = []
+    for item_id in ("exclusion.argument", "exclusion.balance", "relevance.first_stage_f", "overidentification.joint_test"):
+        found = item(findings, item_id)
+        assert found.standing == "not_applicable"
+        assert "no excluded instruments" in found.evidence
