@@ -28,6 +28,8 @@ from app.estimation.moments import Layout, Moments
 from app.estimation.overidentification import overidentification_tests
 from app.estimation.panel import ESTIMATORS as PANEL_ESTIMATORS
 from app.estimation.panel import refit_panel
+from app.estimation.selection import ESTIMATORS as SELECTION_ESTIMATORS
+from app.estimation.selection import refit_selection
 from app.estimation.sensitivity import benchmark_groups, sensitivity_diagnostics
 from app.spec import ClaimSpec, Design
 
@@ -64,6 +66,7 @@ ESTIMATORS: dict[str, tuple[str, str, str]] = {
     ),
 }
 ESTIMATORS.update(PANEL_ESTIMATORS)
+ESTIMATORS.update(SELECTION_ESTIMATORS)
 
 
 def refit(frame: pd.DataFrame, spec: ClaimSpec, *, provenance: dict[str, Any] | None = None) -> Findings:
@@ -254,4 +257,5 @@ DESIGN_REFITS: dict[Design, Callable[[pd.DataFrame, ClaimSpec, dict[str, Any]], 
     Design.IV: refit_instrumental,
     Design.REGRESSION: refit_instrumental,
     Design.PANEL: refit_panel,
+    Design.SELECTION: refit_selection,
 }
