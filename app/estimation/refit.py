@@ -24,6 +24,8 @@ from app.estimation.gmm import GmmFit, two_step_gmm
 from app.estimation.inference import coefficient_rows
 from app.estimation.kclass import fuller_kappa, kclass, liml_kappa
 from app.estimation.linalg import SingularMatrixError
+from app.estimation.mediation import ESTIMATORS as MEDIATION_ESTIMATORS
+from app.estimation.mediation import mediation_reading, treatment_adjusted_ols
 from app.estimation.moments import Layout, Moments
 from app.estimation.overidentification import overidentification_tests
 from app.estimation.panel import ESTIMATORS as PANEL_ESTIMATORS
@@ -67,6 +69,7 @@ ESTIMATORS: dict[str, tuple[str, str, str]] = {
 }
 ESTIMATORS.update(PANEL_ESTIMATORS)
 ESTIMATORS.update(SELECTION_ESTIMATORS)
+ESTIMATORS.update(MEDIATION_ESTIMATORS)
 
 
 def refit(frame: pd.DataFrame, spec: ClaimSpec, *, provenance: dict[str, Any] | None = None) -> Findings:
@@ -107,6 +110,11 @@ def refit_instrumental(frame: pd.DataFrame, spec: ClaimSpec, provenance: dict[st
             options=spec.sensitivity,
         )
     )
+    if spec.design is Design.MEDIATION:
+        fits["ols_with_treatment"] = treatment_adjusted_ols(moments, terms=[*design.endogenous, *design.instruments, *design.exogenous])
+        diagnostics["mediation"] = mediation_reading(
+            moments, variance, fits=fits, diagnostics=diagnostics, mediator=design.endogenous[0], arms=design.instruments
+        )
     return Findings(
         n_obs=design.n_obs,
         design=spec.design.value,
@@ -256,6 +264,7 @@ def sample_summary(design: DesignMatrices) -> dict[str, Any]:
 DESIGN_REFITS: dict[Design, Callable[[pd.DataFrame, ClaimSpec, dict[str, Any]], Findings]] = {
     Design.IV: refit_instrumental,
     Design.REGRESSION: refit_instrumental,
+    Design.MEDIATION: refit_instrumental,
     Design.PANEL: refit_panel,
     Design.SELECTION: refit_selection,
 }
