@@ -239,7 +239,7 @@ def refit_panel(frame: pd.DataFrame, spec: ClaimSpec, provenance: dict[str, Any]
         focal=list(design.endogenous),
         sample=sample,
         covariance=_covariance_summary(pooled_variance, design, effects_in_k=effects_in_k),
-        estimators=fitted.summaries(structure),
+        estimators=fitted.summaries(),
         estimates=fitted.rows(),
         diagnostics=diagnostics,
         warnings=warnings,
@@ -274,7 +274,7 @@ class PanelFits:
             rows.extend(coefficient_rows(fit, variance.covariance(fit), df=variance.inference_df(fit.n_params)))
         return rows
 
-    def summaries(self, structure: PanelStructure) -> list[EstimatorSummary]:
+    def summaries(self) -> list[EstimatorSummary]:
         summaries = []
         for code in self._ordered():
             moments, fit = self.moments[code], self.fits[code]
