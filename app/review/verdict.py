@@ -91,9 +91,9 @@ def _estimate_sentence(view: FindingsView) -> str | None:
     if row is None or row.get("estimate") is None:
         return None
     return (
-        f"Refitted {view.estimator_name(view.claimed_estimator)} estimate of {view.focal_term}: "
+        f"Refitted estimate of {view.focal_term} ({view.estimator_name(view.claimed_estimator)}, as claimed): "
         f"{number(row.get('estimate'))}, 95% interval {interval(row.get('ci_low'), row.get('ci_high'))} "
-        f"({view.variance_label} standard errors)."
+        f"with {view.variance_label} standard errors."
     )
 
 

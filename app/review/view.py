@@ -15,7 +15,7 @@ from typing import Any
 
 from app.review.formatting import count
 
-NAIVE_ESTIMATORS = ("ols", "pooled_ols", "random_effects")
+NAIVE_ESTIMATORS = ("ols", "ols_with_treatment", "pooled_ols", "random_effects")
 """Estimators that treat the focal regressors as uncorrelated with the error."""
 
 INSTRUMENTED_ESTIMATORS = ("2sls", "liml", "fuller1", "fuller4", "gmm", "within_2sls")

@@ -77,3 +77,16 @@ def test_selection_correction_without_an_excluded_variable_is_a_concern(item):
     found = item(selection("heckman_two_step", 0.01, excluded=[]), SELECTION)
     assert found.standing == "concern"
     assert item(selection("heckman_two_step", 0.01, excluded=["children_under_six"]), SELECTION).standing == "sound"
+
+
+def test_an_instrumented_mediator_claim_whose_arms_disagree_is_serious(item):
+    findings = mediation("2sls")
+    only_through = result(
+        6.0, 0.014, df=1, distribution="chi2",
+        drift_per_unit_direct_effect=[{"arm": "coupon_arm", "drift": 0.21}],
+    )
+    found = item(with_diagnostic(findings, "mediation", only_through), MEDIATOR)
+    assert found.standing == "serious"
+    assert "coupon_arm 0.2100" in found.evidence
+    agreeing = item(with_diagnostic(findings, "mediation", {**only_through, "p_value": 0.4}), MEDIATOR)
+    assert agreeing.standing == "concern"

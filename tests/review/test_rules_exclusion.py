@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import pytest
 
-from tests.review.findings_builder import iv_findings, result, with_claim, with_diagnostic
+from tests.review.findings_builder import FOCAL, iv_findings, result, with_claim, with_diagnostic
 
 BALANCE = "exclusion.balance"
 DIRECT = "exclusion.direct_effect"
@@ -35,18 +35,33 @@ def test_instruments_predicting_a_pre_treatment_covariate(item, p_value, standin
         assert "prior_sales" in found.question and "age_at_hire" not in found.question
 
 
+def plausibly_exogenous(break_even: float | None, *, share: float = 0.4) -> dict:
+    entry = {"regressor": FOCAL, "break_even_delta": break_even, "break_even_share_of_reduced_form": share}
+    return result(None, None, by_regressor=[entry])
+
+
 @pytest.mark.parametrize(("break_even", "standing"), [(0.3, "serious"), (0.2999, "serious"), (0.3001, "sound")])
 def test_break_even_direct_effect_against_the_plausible_bound(item, break_even, standing):
     findings = with_claim(iv_findings(), direct_effect_bound=0.3)
-    findings = with_diagnostic(findings, "plausibly_exogenous", result(None, None, break_even_delta=break_even))
+    findings = with_diagnostic(findings, "plausibly_exogenous", plausibly_exogenous(break_even))
     assert item(findings, DIRECT).standing == standing
 
 
 def test_without_a_bound_the_reviewer_judges_the_break_even_value(item):
-    findings = with_diagnostic(iv_findings(), "plausibly_exogenous", result(None, None, break_even_delta=0.12))
+    findings = with_diagnostic(iv_findings(), "plausibly_exogenous", plausibly_exogenous(0.12))
     found = item(findings, DIRECT)
     assert found.standing == "reviewer_judgement"
-    assert "0.1200" in found.evidence
+    assert "0.1200" in found.evidence and "40% of the instruments' reduced-form effect" in found.evidence
+
+
+def test_no_break_even_value_means_no_direct_effect_overturns_the_claim(item):
+    findings = with_diagnostic(iv_findings(), "plausibly_exogenous", plausibly_exogenous(None))
+    assert item(findings, DIRECT).standing == "sound"
+
+
+def test_a_claim_insignificant_with_valid_instruments_has_no_break_even_value(item):
+    findings = with_diagnostic(iv_findings(), "plausibly_exogenous", plausibly_exogenous(0.0))
+    assert item(findings, DIRECT).standing == "not_applicable"
 
 
 @pytest.mark.parametrize("item_id", ["exclusion.argument", "exclusion.as_if_random", "exclusion.monotonicity"])

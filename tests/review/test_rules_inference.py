@@ -36,7 +36,7 @@ def test_clr_set_must_exclude_zero_when_the_usual_interval_does(item, low, stand
     findings = with_diagnostic(iv_findings(), "clr", result(4.0, 0.06, confidence_set=[[low, 0.9]]))
     found = item(findings, ROBUST)
     assert found.standing == standing
-    assert "conditional likelihood-ratio" in found.evidence
+    assert "Conditional likelihood-ratio (CLR)" in found.evidence
 
 
 def test_exactly_identified_claims_read_the_anderson_rubin_set(item):
@@ -72,13 +72,27 @@ def test_number_of_clusters(item, count, standing):
     assert f"G = {count}" in found.evidence
 
 
+def bootstrap(*, wald_p: float | None, ar_p: float) -> dict:
+    return result(
+        3.0, ar_p, replications=9999, seed=20240611, clusters=18,
+        anderson_rubin={"statistic": 3.0, "p_value": ar_p}, wald={"statistic": 4.1, "p_value": wald_p},
+    )
+
+
 @pytest.mark.parametrize(("boot_p", "standing"), [(0.05, "serious"), (0.0499, "sound"), (0.0501, "serious")])
-def test_wild_cluster_bootstrap_decides_with_few_clusters(item, boot_p, standing):
+def test_wild_cluster_bootstrap_of_the_coefficient_test_decides(item, boot_p, standing):
     findings = with_covariance(iv_findings(), "cluster", clusters={"store": 18})
-    bootstrap = result(None, boot_p, replications=9999, seed=20240611)
-    found = item(with_diagnostic(findings, "wild_cluster_bootstrap", bootstrap), CLUSTERS)
+    found = item(with_diagnostic(findings, "wild_cluster_bootstrap", bootstrap(wald_p=boot_p, ar_p=0.9)), CLUSTERS)
     assert found.standing == standing
     assert "9,999 replications" in found.evidence
+    assert "2SLS t statistic" in found.evidence
+
+
+def test_anderson_rubin_bootstrap_when_there_is_no_coefficient_bootstrap(item):
+    findings = with_covariance(iv_findings(), "cluster", clusters={"store": 18})
+    found = item(with_diagnostic(findings, "wild_cluster_bootstrap", bootstrap(wald_p=None, ar_p=0.2)), CLUSTERS)
+    assert found.standing == "serious"
+    assert "Anderson-Rubin test of no effect" in found.evidence
 
 
 def test_clusters_do_not_apply_without_clustering(item):

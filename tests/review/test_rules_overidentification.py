@@ -46,12 +46,17 @@ def test_one_restriction_cannot_single_out_an_instrument(item):
     assert "cannot say which instrument" in found.evidence
 
 
-def three_instruments(c_p_values: dict[str, float], *, joint_p: float) -> dict:
+def three_instruments(c_p_values: dict[str, float], *, joint_p: float, j_without: dict[str, float] | None = None) -> dict:
+    """Three instruments, one focal regressor: C statistics and the J of the two instruments left (chi2(1))."""
     names = list(c_p_values)
     findings = with_claim(iv_findings(), instruments=names)
     findings["sample"]["columns"]["instruments"] = names
     findings = with_diagnostic(findings, "hansen_j", result(12.0, joint_p, df=2, distribution="chi2"))
-    entries = [result(4.0, p, df=1, distribution="chi2", instruments=[name]) for name, p in c_p_values.items()]
+    j_without = j_without or {name: 0.5 for name in names}
+    entries = [
+        result(4.0, p, df=1, distribution="chi2", instruments=[name], j_without_suspects=j_without[name])
+        for name, p in c_p_values.items()
+    ]
     return with_diagnostic(findings, "c_statistic", entries)
 
 
@@ -63,6 +68,28 @@ def test_c_statistic_names_the_blamed_instrument(item, p_value, standing):
     if standing == "serious":
         assert "store_footfall" in found.question
         assert "schedule_lottery" not in found.question
+
+
+@pytest.mark.parametrize(("j_rest", "standing"), [(3.8415, "concern"), (3.84, "serious")])
+def test_blamed_only_if_the_other_instruments_then_agree(item, j_rest, standing):
+    """chi2(1) 95% quantile is 3.8415: the remaining J must stay below it."""
+    findings = three_instruments(
+        {"schedule_lottery": 0.01, "trainer_distance": 0.6, "store_footfall": 0.7},
+        joint_p=0.001,
+        j_without={"schedule_lottery": j_rest, "trainer_distance": 40.0, "store_footfall": 40.0},
+    )
+    assert item(findings, BLAMED).standing == standing
+
+
+def test_every_c_rejecting_names_only_the_one_whose_removal_restores_agreement(item):
+    findings = three_instruments(
+        {"schedule_lottery": 1e-6, "trainer_distance": 1e-4, "store_footfall": 1e-40},
+        joint_p=1e-40,
+        j_without={"schedule_lottery": 190.0, "trainer_distance": 210.0, "store_footfall": 0.06},
+    )
+    found = item(findings, BLAMED)
+    assert found.standing == "serious"
+    assert "singles out store_footfall:" in found.question
 
 
 def test_no_instrument_blamed_and_joint_test_passes(item):

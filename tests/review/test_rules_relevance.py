@@ -42,6 +42,15 @@ def test_effective_f_against_the_montiel_olea_pflueger_critical_values(item, sta
     assert "23.11" in found.evidence
 
 
+def test_effective_f_uses_the_conservative_simplified_critical_value(item):
+    entry = effective_f(9.0)
+    for row in entry["critical_values"]:
+        row.update(simplified=row["critical_value"], generalized=4.0)
+    found = item(with_diagnostic(iv_findings(), "effective_f", entry), "relevance.effective_f")
+    assert found.standing == "serious"
+    assert "generalized critical value for 10%, using the estimated bias bound, is 4.000" in found.evidence
+
+
 def test_effective_f_without_its_critical_value_is_not_judged(item):
     broken = result(30.0, None, critical_values=[])
     found = item(with_diagnostic(iv_findings(), "effective_f", broken), "relevance.effective_f")

@@ -113,8 +113,11 @@ def claimed_sentence(view: FindingsView) -> str:
         parts.append(f"a first-stage F of {claimed['first_stage_f']}")
     estimator = view.estimator_name(view.claimed_estimator)
     if not parts:
-        return f"The manuscript's printed numbers were not entered; the {estimator} estimate of {view.focal_term} is reviewed."
-    return f"The manuscript reports, for the {estimator} coefficient of {view.focal_term} on {view.outcome}, {', '.join(parts)}."
+        return f"The manuscript's printed numbers were not entered; the estimate of {view.focal_term} ({estimator}) is reviewed."
+    return (
+        f"The manuscript reports, for the effect of {view.focal_term} on {view.outcome} ({estimator}), "
+        f"{', '.join(parts)}."
+    )
 
 
 def key_diagnostics(view: FindingsView) -> list[tuple[str, str]]:

@@ -37,7 +37,7 @@ COVARIANCE_OPTIONS = {
 }
 """Claim covariance -> (linearmodels cov_type, IVGMM weight_type)."""
 
-SCRIPTED_DESIGNS = ("iv", "regression", "mediation")
+SCRIPTED_DESIGNS = ("iv", "regression", "mediation", "panel")
 """Designs whose every estimator the script rewrites."""
 
 FILTER_OPERATORS = ("==", "!=", "<", "<=", ">", ">=", "in")
@@ -64,7 +64,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 from linearmodels.iv import IV2SLS, IVGMM, IVLIML
-
+{panel_import}
 CLAIM_TITLE = {title}
 DATA_FILE = Path(sys.argv[1] if len(sys.argv) > 1 else {data_file})
 '''
@@ -164,7 +164,11 @@ def render_script(findings: Mapping[str, Any], checklist: Checklist, *, data_fil
     """The reproduction script as Python source text (``checklist`` is not needed: the script recomputes)."""
     view = FindingsView(findings)
     parts = [
-        HEADER.format(title=repr(view.title), data_file=repr(data_file_name)),
+        HEADER.format(
+            title=repr(view.title),
+            data_file=repr(data_file_name),
+            panel_import="from linearmodels.panel import RandomEffects\n" if view.design == "panel" else "",
+        ),
         READ_HELPER,
     ]
     if view.claim_entries("filters"):
@@ -232,7 +236,10 @@ def _main(view: FindingsView) -> str:
         "    n_obs = len(outcome)",
     ]
     body += _fit_options(clusters, cov_type=cov_type)
-    body += _fits(focal=focal, instruments=instruments, exogenous=exogenous, weight_type=weight_type, clusters=clusters, kind=kind)
+    body += _fits(
+        view=view, focal=focal, instruments=instruments, exogenous=exogenous, weight_type=weight_type,
+        clusters=clusters, kind=kind,
+    )
     return "\n".join(body) + "\n"
 
 
@@ -294,20 +301,29 @@ def _fit_options(clusters: list[str], *, cov_type: str) -> list[str]:
 
 
 def _fits(
-    *, focal: list[str], instruments: list[str], exogenous: list[str], weight_type: str, clusters: list[str], kind: str
+    *, view: FindingsView, focal: list[str], instruments: list[str], exogenous: list[str], weight_type: str,
+    clusters: list[str], kind: str,
 ) -> list[str]:
     two_way = len(clusters) == 2
+    naive = "pooled_ols" if view.design == "panel" else "ols"
+    k = len(focal) + len(exogenous)
     lines = [
         "",
-        "    # linearmodels does not count absorbed fixed effects among the parameters; rescale its covariances",
-        "    # so that k includes them, as SecondStage (and a regression with the indicators) does.",
-        f"    n_params = {len(focal) + len(exogenous)}",
-        "    dof_scale = (n_obs - n_params) / (n_obs - n_params - absorbed)",
-        "",
+        "    # linearmodels does not count absorbed fixed effects among the parameters; SecondStage does (as a",
+        "    # regression with the indicators would), so each variance is rescaled by (n - k) / (n - k - absorbed).",
+        "    fits, scales = {}, {}",
         "    show('n_obs', n_obs)",
         "    regressors = pd.concat([exogenous, focal], axis=1) if exogenous is not None else focal",
-        "    fits = {'ols': IV2SLS(outcome, regressors, None, None, weights=weights).fit(**options)}",
+        f"    fits[{naive!r}] = IV2SLS(outcome, regressors, None, None, weights=weights).fit(**options)",
+        f"    scales[{naive!r}] = (n_obs - {k}) / (n_obs - {k} - absorbed)",
     ]
+    if view.design == "mediation":
+        lines += [
+            "    # The naive regression that holds the randomized arms fixed.",
+            "    with_arms = pd.concat([regressors, instruments], axis=1)",
+            "    fits['ols_with_treatment'] = IV2SLS(outcome, with_arms, None, None, weights=weights).fit(**options)",
+            f"    scales['ols_with_treatment'] = (n_obs - {k + len(instruments)}) / (n_obs - {k + len(instruments)} - absorbed)",
+        ]
     if instruments:
         weight_options = "**weight_options" if kind == "cluster" else f"weight_type={weight_type!r}"
         lines += [
@@ -327,11 +343,17 @@ def _fits(
                 f"    gmm = IVGMM(outcome, exogenous, focal, instruments, weights=weights, {weight_options}).fit(**options)",
                 "    fits['gmm'] = gmm",
             ]
+        lines += [
+            "    for code in ('2sls', 'liml', 'fuller1', 'fuller4', 'gmm'):",
+            f"        scales[code] = (n_obs - {k}) / (n_obs - {k} - absorbed)",
+        ]
+    if view.design == "panel":
+        lines += _panel_fits(view, focal=focal, exogenous=exogenous, clusters=clusters, kind=kind)
     lines += [
         "    for code, fit in fits.items():",
         f"        for term in {focal!r}:",
         "            show(f'{code}.estimate[{term}]', fit.params[term])",
-        "            show(f'{code}.std_error[{term}]', fit.std_errors[term] * dof_scale**0.5)",
+        "            show(f'{code}.std_error[{term}]', fit.std_errors[term] * scales[code] ** 0.5)",
     ]
     if not instruments:
         return lines
@@ -353,4 +375,47 @@ def _fits(
             lines.append("    # Hansen J is left out with two-way clustering (see above).")
         else:
             lines += ["    show('hansen_j', gmm.j_stat.stat)", "    show('hansen_j.p_value', gmm.j_stat.pval)"]
+    return lines
+
+
+def _panel_fits(view: FindingsView, *, focal: list[str], exogenous: list[str], clusters: list[str], kind: str) -> list[str]:
+    """Within and random-effects fits of the panel design (without weights, fixed effects or two-way clusters)."""
+    unit, time = view.claim_name("unit"), view.claim_name("time")
+    if unit is None or view.claim_name("weights") or view.claim_names("fixed_effects") or len(clusters) == 2:
+        return ["    # The within and random-effects fits are not rewritten for weights, extra fixed effects or two-way clusters."]
+    within = view.design_columns("within") or focal
+    outcome = view.outcome
+    columns = [outcome, *within]
+    lines = [
+        "",
+        "    # Within (fixed effects): subtract each unit's means. The unit effects count among the parameters,",
+        "    # except with standard errors clustered on groups that contain whole units.",
+        f"    unit = frame[{unit!r}]",
+        f"    demeaned = data[{columns!r}] - data[{columns!r}].groupby(unit).transform('mean')",
+    ]
+    if kind == "cluster":
+        lines.append(f"    nested = bool((frame.groupby({unit!r})[{clusters[0]!r}].nunique() == 1).all())")
+    else:
+        lines.append("    nested = False")
+    lines += [
+        "    unit_effects = 0 if nested else unit.nunique()",
+        f"    fits['within'] = IV2SLS(demeaned[{outcome!r}], demeaned[{within!r}], None, None).fit(**options)",
+        f"    scales['within'] = (n_obs - {len(within)}) / (n_obs - {len(within)} - unit_effects)",
+        "",
+        "    # Random effects (Swamy-Arora), as linearmodels computes them; with clustered errors its",
+        "    # group small-sample factor G/(G-1) matches SecondStage's.",
+    ]
+    period = f"frame[{time!r}]" if time else f"frame.groupby({unit!r}).cumcount()"
+    lines += [
+        f"    panel = data.set_index([unit, {period}])",
+        "    panel_options = dict(options)",
+    ]
+    if kind == "cluster":
+        lines += [
+            "    panel_options.update(clusters=pd.DataFrame(clusters.to_numpy(), index=panel.index), group_debias=True)",
+        ]
+    lines += [
+        f"    fits['random_effects'] = RandomEffects(panel[{outcome!r}], panel[{exogenous[:1] + focal + exogenous[1:]!r}]).fit(**panel_options)",
+        "    scales['random_effects'] = 1.0",
+    ]
     return lines

@@ -85,13 +85,13 @@ def _estimates(view: FindingsView) -> list[str]:
     for term, lines in lines_by_term.items():
         out += heading(f"Effect of {term} on {view.outcome}")
         out.append(f"  standard errors: {view.variance_label}")
-        header = f"  {'':2}{'estimator':<20}{'estimate':>12}{'std. error':>13}   {'95% interval':<28}{'p-value':>10}"
+        header = f"  {'':2}{'estimator':<30}{'estimate':>11}{'std. error':>12}   {'95% interval':<26}{'p-value':>11}"
         out += ["", header, "  " + "-" * (len(header) - 2)]
         for line in lines:
             marker = "->" if line.claimed else ""
             out.append(
-                f"  {marker:2}{line.name[:19]:<20}{number(line.estimate):>12}{number(line.std_error):>13}   "
-                f"{interval_text(line):<28}{p_value(line.p_value).removeprefix('p = '):>10}"
+                f"  {marker:2}{line.name[:29]:<30}{number(line.estimate):>11}{number(line.std_error):>12}   "
+                f"{interval_text(line):<26}{p_value(line.p_value).removeprefix('p = '):>11}"
             )
         if any(line.claimed for line in lines):
             out.append("  (-> the estimator the claim reports)")

@@ -48,20 +48,35 @@ def assess_mediator(view: FindingsView) -> Outcome:
         return skip
     mediator = view.focal_term
     treatments = ", ".join(view.instruments) or "the randomized treatment"
-    naive, instrumented = view.row("ols"), view.row("2sls")
     parts = []
-    if naive:
-        parts.append(
-            f"Naive regression of {view.outcome} on {mediator}: {number(naive.get('estimate'))} "
-            f"{interval(naive.get('ci_low'), naive.get('ci_high'))}."
-        )
+    for code, words in (("ols", "Naive regression"), ("ols_with_treatment", "Naive regression holding the arms fixed")):
+        naive = view.row(code)
+        if naive:
+            parts.append(
+                f"{words} of {view.outcome} on {mediator}: {number(naive.get('estimate'))} "
+                f"{interval(naive.get('ci_low'), naive.get('ci_high'))}."
+            )
+    instrumented = view.row("2sls")
     if instrumented:
         parts.append(
             f"{mediator} instrumented by {treatments} (2SLS): {number(instrumented.get('estimate'))} "
             f"{interval(instrumented.get('ci_low'), instrumented.get('ci_high'))}."
         )
-    for entry in view.first_stages():
-        parts.append(f"First-stage F of the treatment on {mediator}: {number(entry.get('statistic'))}.")
+    only_through = view.lookup("mediation")
+    only_through_p = None
+    if only_through.usable:
+        test = only_through.value
+        only_through_p = as_number(test.get("p_value"))
+        if test.get("statistic") is not None:
+            parts.append(
+                "Test that the arms act only through the mediator (they must agree on its effect): "
+                f"{statistic(test.get('statistic'), distribution=test.get('distribution'), df=test.get('df'))}, "
+                f"{p_value(only_through_p)}."
+            )
+        drifts = [d for d in test.get("drift_per_unit_direct_effect") or [] if isinstance(d, Mapping)]
+        if drifts:
+            shown = "; ".join(f"{d.get('arm')} {number(d.get('drift'))}" for d in drifts)
+            parts.append(f"Shift of the 2SLS estimate per unit of direct effect of each arm on {view.outcome}: {shown}.")
     evidence = " ".join(parts) or "The findings hold no estimate of the mediator's effect."
     if view.claimed_estimator in NAIVE_ESTIMATORS:
         return Outcome(
@@ -73,14 +88,13 @@ def assess_mediator(view: FindingsView) -> Outcome:
                 f"effect with the randomized {treatments} as instrument, or manipulate {mediator} directly?"
             ),
         )
-    return Outcome(
-        "concern",
-        evidence + f" This needs {treatments} to affect {view.outcome} only through {mediator}.",
-        question=(
-            f"The instrumented estimate assumes that {treatments} changes {view.outcome} only through {mediator}. "
-            "What other consequences of the treatment could reach the outcome, and how are they ruled out?"
-        ),
+    question = (
+        f"The instrumented estimate assumes that {treatments} changes {view.outcome} only through {mediator}. "
+        "What other consequences of the treatment could reach the outcome, and how are they ruled out?"
     )
+    if significant(only_through_p):
+        return Outcome("serious", evidence + " The arms disagree, so at least one acts through another path.", question=question)
+    return Outcome("concern", evidence + f" This needs {treatments} to affect {view.outcome} only through {mediator}.", question=question)
 
 
 def assess_mediator_manipulated(view: FindingsView) -> Outcome:
@@ -193,9 +207,10 @@ RULES = (
         title="A claim about a measured mediator is protected from shared causes",
         rule=(
             "A naive regression on a measured mediator is serious; an estimate instrumented by the randomized arms "
-            "is a concern until the only-through-the-mediator assumption is argued."
+            f"is a concern until the only-through-the-mediator assumption is argued, and serious when several arms "
+            f"disagree (over-identification test with p below {SIGNIFICANCE})."
         ),
-        source="Bullock, Green & Ha (2010)",
+        source="Bullock, Green & Ha (2010); Angrist, Imbens & Rubin (1996); Hansen (1982)",
         explanation=(
             "Randomizing a treatment makes treated and control groups comparable, but not people with high and low "
             "values of a mediator the treatment moves. Whatever else drives the mediator can also drive the outcome."

@@ -100,14 +100,13 @@ def assess_balance(view: FindingsView) -> Outcome:
     checks = _balance_checks(found.value)
     if not checks:
         return not_applicable("No pre-treatment covariate was checked for balance.")
+    distribution = found.value.get("distribution") if isinstance(found.value, Mapping) else None
     parts, unbalanced = [], []
     for check in checks:
         p = as_number(check.get("p_value"))
         covariate = str(check.get("covariate", check.get("name")))
-        parts.append(
-            f"{covariate}: {statistic(check.get('statistic'), distribution=check.get('distribution'), df=check.get('df'))}, "
-            f"{p_value(p)}."
-        )
+        shown = statistic(check.get("statistic"), distribution=check.get("distribution", distribution), df=check.get("df"))
+        parts.append(f"{covariate}: {shown}, {p_value(p)}.")
         if significant(p):
             unbalanced.append(covariate)
     evidence = f"Joint test that the instruments predict each pre-treatment covariate ({view.variance_label}): " + " ".join(parts)
@@ -136,14 +135,25 @@ def assess_direct_effect(view: FindingsView) -> Outcome:
     found = view.lookup("plausibly_exogenous")
     if (skip := unavailable(found)) is not None:
         return skip
-    data = found.value
-    break_even = as_number(data.get("break_even_delta"))
+    entries = [e for e in found.value.get("by_regressor") or [] if isinstance(e, Mapping)]
+    entry = next((e for e in entries if e.get("regressor") == view.focal_term), entries[0] if entries else None)
+    if entry is None:
+        return not_applicable("The findings give no break-even direct effect for the focal regressor.")
+    break_even = as_number(entry.get("break_even_delta"))
     bound = as_number(view.claim.get("direct_effect_bound"))
+    if break_even == 0:
+        return not_applicable(
+            "The claimed effect is not distinguishable from zero even with exactly valid instruments, so no "
+            "direct effect is needed to overturn it."
+        )
     if break_even is None:
-        return not_applicable("The findings give no break-even direct effect. " + str(data.get("reason") or ""))
+        evidence = f"No direct effect of the instruments on {view.outcome} within the range examined makes the effect insignificant."
+        return Outcome("sound", evidence)
+    share = as_number(entry.get("break_even_share_of_reduced_form"))
     evidence = (
-        f"A direct effect of the instruments on {view.outcome} of {number(break_even)} (in outcome units per unit of "
-        "the instrument) would make the claimed effect indistinguishable from zero."
+        f"A direct effect of the instruments on {view.outcome} of {number(break_even)} (outcome units per unit of each "
+        "instrument) would make the claimed effect indistinguishable from zero"
+        + (f"; that is {share:.0%} of the instruments' reduced-form effect." if share is not None else ".")
     )
     if bound is None:
         return Outcome(

@@ -88,7 +88,7 @@ def assess_weak_iv_robust(view: FindingsView) -> Outcome:
         found = view.lookup("anderson_rubin")
     if (skip := unavailable(found)) is not None:
         return skip
-    name = {"clr": "conditional likelihood-ratio", "anderson_rubin": "Anderson-Rubin"}[found.key]
+    name = {"clr": "Conditional likelihood-ratio (CLR)", "anderson_rubin": "Anderson-Rubin"}[found.key]
     estimator = view.claimed_estimator if view.claimed_estimator in INSTRUMENTED_ESTIMATORS else "2sls"
     row = view.row(estimator)
     usual_low, usual_high = (as_number(row.get("ci_low")), as_number(row.get("ci_high"))) if row else (None, None)
@@ -101,6 +101,8 @@ def assess_weak_iv_robust(view: FindingsView) -> Outcome:
     parts.append(
         f"{name} 95% set: {confidence_set(pieces)}; test of no effect: {p_value(found.value.get('p_value'))}."
     )
+    if isinstance(found.value.get("shape_meaning"), str):
+        parts.append(found.value["shape_meaning"])
     parts += _other_robust_sets(view, exclude=found.key)
     evidence = " ".join(parts)
     contains_zero = set_contains(pieces, 0.0)
@@ -161,16 +163,29 @@ def assess_few_clusters(view: FindingsView) -> Outcome:
     )
     if not found.usable:
         return Outcome("concern", evidence + " No wild cluster bootstrap is in the findings.", question=question)
-    boot_p = as_number(found.value.get("p_value"))
+    boot_p, method = _bootstrap_p_value(found.value)
     row = view.row(view.claimed_estimator)
     usual_p = as_number(row.get("p_value")) if row else None
     evidence += (
         f" Wild cluster bootstrap ({count(found.value.get('replications'))} replications, seed "
-        f"{found.value.get('seed', 'not recorded')}): {p_value(boot_p)}; usual test: {p_value(usual_p)}."
+        f"{found.value.get('seed', 'not recorded')}), {method}: {p_value(boot_p)}; usual test: {p_value(usual_p)}."
     )
+    if boot_p is None:
+        return Outcome("concern", evidence, question=question)
     if significant(usual_p) and not significant(boot_p):
         return Outcome("serious", evidence, question=question)
-    return Outcome("concern" if boot_p is None else "sound", evidence, question=question)
+    return Outcome("sound", evidence)
+
+
+def _bootstrap_p_value(data: Mapping[str, Any]) -> tuple[float | None, str]:
+    """The bootstrap p-value of the coefficient test when there is one, else of the Anderson-Rubin test."""
+    wald = data.get("wald")
+    if isinstance(wald, Mapping) and as_number(wald.get("p_value")) is not None:
+        return as_number(wald.get("p_value")), "test of no effect on the 2SLS t statistic"
+    ar = data.get("anderson_rubin")
+    if isinstance(ar, Mapping) and as_number(ar.get("p_value")) is not None:
+        return as_number(ar.get("p_value")), "Anderson-Rubin test of no effect"
+    return as_number(data.get("p_value")), "test of no effect"
 
 
 def assess_variance_choice(view: FindingsView) -> Outcome:

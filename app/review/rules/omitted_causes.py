@@ -85,26 +85,28 @@ def assess_naive_vs_instrumented(view: FindingsView) -> Outcome:
 
 
 def _common_cause_size(view: FindingsView) -> list[str]:
-    """The sign and size of the endogeneity, from the residual correlations."""
-    parts = []
-    found = view.lookup("disturbance_correlation")
-    if found.usable and isinstance(found.value, Mapping):
-        entry = found.value
-        parts.append(
-            f"Estimated correlation of the first-stage and outcome disturbances (system fit): "
-            f"{number(entry.get('statistic', entry.get('estimate')))}, 95% interval "
-            f"{interval(entry.get('ci_low'), entry.get('ci_high'))}."
-        )
-        return parts
-    residual = view.lookup("residual_correlation")
-    if residual.usable and isinstance(residual.value, Mapping):
-        for entry in residual.value.get("by_regressor") or []:
-            if isinstance(entry, Mapping):
+    """The sign and size of the endogeneity: the system fit's disturbance correlation, else the residual correlation."""
+    for key in ("disturbance_correlation", "residual_correlation"):
+        found = view.lookup(key)
+        if not found.usable:
+            continue
+        entries = [e for e in found.value.get("by_regressor") or [] if isinstance(e, Mapping)]
+        parts = []
+        for entry in entries:
+            if key == "disturbance_correlation":
+                parts.append(
+                    f"Correlation of the outcome and first-stage disturbances of {entry.get('regressor')} (3SLS "
+                    f"system): {number(entry.get('correlation'))}, 95% interval "
+                    f"{interval(entry.get('ci_low'), entry.get('ci_high'))}."
+                )
+            else:
                 parts.append(
                     f"First-stage and 2SLS residuals of {entry.get('regressor')} correlate at "
                     f"{number(entry.get('correlation'))}."
                 )
-    return parts
+        if parts:
+            return parts
+    return []
 
 
 def assess_sensitivity(view: FindingsView) -> Outcome:
@@ -128,7 +130,7 @@ def assess_sensitivity(view: FindingsView) -> Outcome:
                 "and the outcome, and could an omitted cause of that strength overturn the estimate?"
             ),
         )
-    overturned = [b for b in bounds if _bound_overturns(b)]
+    overturned = [b for b in bounds if _bound_overturns(b, estimate=as_number(data.get("estimate")))]
     at_benchmark = [b for b in overturned if as_number(b.get("multiplier")) <= BENCHMARK_MULTIPLE]
     if at_benchmark:
         names = ", ".join(sorted({str(b.get("benchmark")) for b in at_benchmark}))
@@ -158,10 +160,13 @@ def _benchmark_bounds(data: Mapping[str, Any]) -> list[Mapping[str, Any]]:
     return [b for b in bounds if isinstance(b, Mapping)] if isinstance(bounds, list) else []
 
 
-def _bound_overturns(bound: Mapping[str, Any]) -> bool:
-    """True when the adjusted interval contains zero."""
+def _bound_overturns(bound: Mapping[str, Any], *, estimate: float | None) -> bool:
+    """True when the adjusted interval contains zero or the adjusted estimate has crossed it."""
     low, high = as_number(bound.get("adjusted_ci_low")), as_number(bound.get("adjusted_ci_high"))
-    return low is None or high is None or low <= 0.0 <= high
+    if low is None or high is None or low <= 0.0 <= high:
+        return True
+    adjusted = as_number(bound.get("adjusted_estimate"))
+    return estimate is not None and adjusted is not None and adjusted * estimate <= 0
 
 
 def _sensitivity_evidence(data: Mapping[str, Any]) -> str:
@@ -248,7 +253,8 @@ RULES = (
         title="An omitted cause as strong as an observed one would not overturn the estimate",
         rule=(
             "The interval adjusted for an omitted cause as strong as the strongest benchmark covariate (k = 1) must "
-            "exclude zero (serious if not); concern if a cause 2 or 3 times as strong would include it."
+            "exclude zero and keep the estimate's sign (serious if not); concern if a cause 2 or 3 times as strong "
+            "would not."
         ),
         source="Cinelli & Hazlett (2020)",
         explanation=(

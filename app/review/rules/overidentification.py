@@ -8,9 +8,12 @@ gives its own estimate; if all are valid they agree up to chance.
   is invalid, or that the effect differs across the people each instrument
   moves.
 * The C statistic (difference-in-Hansen/Sargan) for each instrument or
-  named subset says which one the joint test blames. With one
-  over-identifying restriction every C statistic equals J, so no instrument
-  can be singled out.
+  named subset says which one the joint test blames. Its test assumes the
+  other instruments are valid, so when one instrument is invalid the C
+  statistics of the valid ones can reject too; an instrument is singled out
+  only if the others, without it, pass the over-identification test. With
+  one over-identifying restriction every C statistic equals J, so no
+  instrument can be singled out.
 
 A non-rejection does not show validity: instruments that share one bias
 agree with each other.
@@ -29,7 +32,8 @@ from __future__ import annotations
 from collections.abc import Mapping
 from typing import Any
 
-from app.review.formatting import as_number, p_value, statistic
+from app.estimation.inference import chi2_p
+from app.review.formatting import as_number, number, p_value, statistic
 from app.review.rules.base import SIGNIFICANCE, Outcome, Rule, needs_instruments, not_applicable, significant, unavailable
 from app.review.view import FindingsView, Lookup
 
@@ -96,53 +100,64 @@ def assess_blamed_instrument(view: FindingsView) -> Outcome:
     entries = _c_entries(found.value)
     if not entries:
         return not_applicable("The findings hold no C statistic for any instrument or subset.")
-    parts, blamed = [], []
+    parts, rejecting, blamed = [], [], []
     for entry in entries:
         label = _subset_label(entry)
-        p = as_number(entry.get("p_value"))
         if entry.get("standing", "computed") != "computed":
             parts.append(f"{label}: not computed ({entry.get('reason') or 'no reason given'}).")
             continue
-        parts.append(
-            f"{label}: {statistic(entry.get('statistic'), distribution=entry.get('distribution'), df=entry.get('df'))}, "
-            f"{p_value(p)}."
-        )
+        p = as_number(entry.get("p_value"))
+        rest_p = remaining_p_value(entry, n_instruments=len(view.instruments), n_focal=len(view.focal_terms))
+        shown = statistic(entry.get("statistic"), distribution=entry.get("distribution"), df=entry.get("df"))
+        rest = f"; the other instruments alone: J = {number(entry.get('j_without_suspects'))}, {p_value(rest_p)}"
+        parts.append(f"{label}: {shown}, {p_value(p)}{rest if rest_p is not None else ''}.")
         if significant(p):
-            blamed.append(label)
+            rejecting.append(label)
+            if rest_p is not None and not significant(rest_p):
+                blamed.append(label)
     evidence = "C statistic (is this instrument invalid, given the others?): " + " ".join(parts)
     if blamed:
         return Outcome(
             "serious",
             evidence,
             question=(
-                f"The C statistic singles out {', '.join(blamed)}. Why should this instrument be excluded from the "
-                f"equation of {view.outcome}, and how does the estimate change without it?"
+                f"The C statistic singles out {', '.join(blamed)}: without it the other instruments agree. Why should it "
+                f"be excluded from the equation of {view.outcome}, and how does the estimate change without it?"
             ),
         )
-    if joint_rejects:
+    if rejecting or joint_rejects:
         return Outcome(
             "concern",
             evidence,
             question=(
-                "The joint test rejects but no single instrument is blamed. Do the authors expect the effect to differ "
-                "across the people each instrument moves?"
+                "The instruments disagree, but dropping no single instrument or named subset makes the others agree. "
+                "Which instruments do the authors trust, and do they expect the effect to differ across the people "
+                "each instrument moves?"
             ),
         )
     return Outcome("sound", evidence)
 
 
+def remaining_p_value(entry: Mapping[str, Any], *, n_instruments: int, n_focal: int) -> float | None:
+    """p-value of the over-identification test on the instruments left after dropping the suspects.
+
+    None when the remaining instruments just identify the model (their J is zero by construction).
+    """
+    suspects = entry.get("instruments")
+    j_rest = as_number(entry.get("j_without_suspects"))
+    if not isinstance(suspects, list) or j_rest is None:
+        return None
+    degrees = n_instruments - len(suspects) - n_focal
+    return chi2_p(j_rest, degrees) if degrees > 0 else None
+
+
 def _c_entries(data: Any) -> list[Mapping[str, Any]]:
-    if isinstance(data, list):
-        return [e for e in data if isinstance(e, Mapping)]
-    entries = data.get("by_subset", data.get("tests")) if isinstance(data, Mapping) else None
-    return [e for e in entries if isinstance(e, Mapping)] if isinstance(entries, list) else []
+    return [e for e in data if isinstance(e, Mapping)] if isinstance(data, list) else []
 
 
 def _subset_label(entry: Mapping[str, Any]) -> str:
-    names = entry.get("instruments", entry.get("subset", entry.get("instrument")))
-    if isinstance(names, list):
-        return " + ".join(str(n) for n in names)
-    return str(names)
+    names = entry.get("instruments")
+    return " + ".join(str(n) for n in names) if isinstance(names, list) else str(entry.get("name", "a subset"))
 
 
 RULES = (
@@ -163,7 +178,10 @@ RULES = (
     Rule(
         id="overidentification.blamed_instrument",
         title="No single instrument is singled out as invalid",
-        rule=f"A C statistic with p below {SIGNIFICANCE} names the instrument (or subset) the joint test blames.",
+        rule=(
+            f"An instrument (or named subset) is singled out when its C statistic has p below {SIGNIFICANCE} and the "
+            "other instruments alone pass the over-identification test (the second condition is common practice)."
+        ),
         source="Hayashi (2000), sec. 3.6; Eichenbaum, Hansen & Singleton (1988)",
         explanation=(
             "The C statistic compares the fit with and without one instrument's validity assumed. A large value "

@@ -96,10 +96,25 @@ def assess_first_stage_f(view: FindingsView) -> Outcome:
 
 
 def critical_value(entry: Mapping[str, Any], tau: float) -> float | None:
-    """The critical value for worst-case bias share ``tau`` in an ``effective_f`` result."""
-    for row in entry.get("critical_values") or []:
+    """The simplified (conservative) critical value for worst-case bias share ``tau`` in an ``effective_f`` result.
+
+    Montiel Olea & Pflueger (2013) give a simplified critical value (x = 1/tau)
+    and a generalized one (x = B/tau with the estimated bias bound B). The
+    generalized one can be far lower, e.g. with two instruments, where the
+    2SLS bias is small even when inference is badly distorted; the rule uses
+    the conservative simplified value and the evidence shows both.
+    """
+    row = _critical_row(entry, tau)
+    if row is None:
+        return None
+    return as_number(row.get("simplified", row.get("critical_value")))
+
+
+def _critical_row(entry: Mapping[str, Any], tau: float) -> Mapping[str, Any] | None:
+    rows = entry.get("critical_values")
+    for row in rows if isinstance(rows, list) else []:
         if isinstance(row, Mapping) and _same_share(row.get("tau"), tau):
-            return as_number(row.get("critical_value"))
+            return row
     return None
 
 
@@ -123,9 +138,10 @@ def assess_effective_f(view: FindingsView) -> Outcome:
         f"Effective F = {number(value)} ({view.variance_label}); critical value for a worst-case bias of "
         f"{EFFECTIVE_F_TAU:.0%} at the 5% level: {number(target)}"
     )
-    evidence += f", for {EFFECTIVE_F_TAU_SEVERE:.0%}: {number(severe)}." if severe is not None else "."
-    if entry.get("shown_note"):
-        evidence += f" Note: {entry['shown_note']}."
+    evidence += f", for {EFFECTIVE_F_TAU_SEVERE:.0%}: {number(severe)} (simplified, conservative values)."
+    generalized = as_number((_critical_row(entry, EFFECTIVE_F_TAU) or {}).get("generalized"))
+    if generalized is not None:
+        evidence += f" The generalized critical value for 10%, using the estimated bias bound, is {number(generalized)}."
     if value >= target:
         return Outcome("sound", evidence)
     standing = "serious" if severe is None or value < severe else "concern"
@@ -234,8 +250,8 @@ RULES = (
         id="relevance.effective_f",
         title="The instruments are strong enough for a reliable 2SLS estimate",
         rule=(
-            "The effective F must reach the critical value for a worst-case bias of 10% (5% test); below the 30% "
-            "critical value the item is serious, in between a concern."
+            "The effective F must reach the simplified critical value for a worst-case bias of 10% (5% test); below "
+            "the 30% critical value the item is serious, in between a concern."
         ),
         source="Montiel Olea & Pflueger (2013)",
         explanation=(
