@@ -57,8 +57,13 @@ def darfur_claim(**fields: object) -> dict:
 
 
 @pytest.fixture(scope="module")
-def sensitivity(darfur: pd.DataFrame) -> dict:
-    return refit(darfur, parse_claim(darfur_claim(sensitivity={"q": 0.5}))).to_dict()["diagnostics"]["omitted_cause_sensitivity"][0]
+def darfur_findings(darfur: pd.DataFrame) -> dict:
+    return refit(darfur, parse_claim(darfur_claim(sensitivity={"q": 0.5}))).to_dict()
+
+
+@pytest.fixture(scope="module")
+def sensitivity(darfur_findings: dict) -> dict:
+    return darfur_findings["diagnostics"]["omitted_cause_sensitivity"][0]
 
 
 @pytest.fixture(scope="module")
@@ -204,8 +209,8 @@ def test_sensitivity_uses_the_classical_standard_error_whatever_the_claim_says(d
     assert "classical" in other["standard_error_kind"]
 
 
-def test_every_design_with_an_ols_fit_carries_both_sensitivity_keys(darfur: pd.DataFrame) -> None:
-    diagnostics = refit(darfur, parse_claim(darfur_claim())).to_dict()["diagnostics"]
+def test_every_design_with_an_ols_fit_carries_both_sensitivity_keys(darfur_findings: dict) -> None:
+    diagnostics = darfur_findings["diagnostics"]
     assert diagnostics["omitted_cause_sensitivity"][0]["standing"] == "computed"
     assert diagnostics["proportional_selection"][0]["standing"] == "computed"
     assert math.isfinite(diagnostics["omitted_cause_sensitivity"][0]["statistic"])
