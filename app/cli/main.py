@@ -12,10 +12,10 @@ import argparse
 import sys
 from collections.abc import Sequence
 
-from app.cli import check
+from app.cli import check, db, serve
 from app.errors import SecondStageError
 
-COMMAND_MODULES = (check,)
+COMMAND_MODULES = (check, serve, db)
 
 
 def build_parser() -> argparse.ArgumentParser:

@@ -1,0 +1,77 @@
+"""``secondstage serve``: run the web app, optionally with the demo cases loaded first."""
+
+from __future__ import annotations
+
+import argparse
+import ipaddress
+import sys
+import tempfile
+from pathlib import Path
+
+from app.settings import Settings
+
+
+def register(subparsers: argparse._SubParsersAction) -> None:
+    """Add the ``serve`` command."""
+    parser = subparsers.add_parser(
+        "serve",
+        help="run the web app in this process",
+        description=(
+            "Run SecondStage's web app. All data stay in one data directory on this machine; "
+            "pages load nothing from elsewhere."
+        ),
+    )
+    parser.add_argument("--host", default="127.0.0.1", help="address to listen on (default: 127.0.0.1, this machine only)")
+    parser.add_argument("--port", type=int, default=8000, help="port to listen on (default: 8000)")
+    parser.add_argument(
+        "--data-dir",
+        type=Path,
+        metavar="DIR",
+        help="folder for the database and uploaded files (default: ./secondstage-data; with --demo, a new temporary folder)",
+    )
+    parser.add_argument(
+        "--demo",
+        action="store_true",
+        help="first load the invented demo cases, finished and ready to read, into a fresh data directory",
+    )
+    parser.set_defaults(handler=run)
+
+
+def run(arguments: argparse.Namespace) -> int:
+    """Load the demo if asked, then serve until interrupted."""
+    import uvicorn
+
+    from app.services import demo
+    from app.services.context import ServiceContext
+    from app.web.app import create_app
+
+    data_dir = arguments.data_dir
+    if data_dir is None and arguments.demo:
+        data_dir = Path(tempfile.mkdtemp(prefix="secondstage-demo-"))
+    settings = Settings(data_dir=data_dir) if data_dir is not None else Settings()
+    if arguments.demo:
+        print(f"Loading the demo cases into {settings.data_dir} ...", file=sys.stderr)
+        context = ServiceContext.open(settings)
+        try:
+            for case in demo.load_demo(context):
+                print(f"  case {case.case.id}: {case.case.title}", file=sys.stderr)
+        finally:
+            context.close()
+    if not _is_loopback(arguments.host):
+        print(
+            f"Warning: listening on {arguments.host}; anyone who can reach this port can read every case. "
+            "Use 127.0.0.1 unless the network is private.",
+            file=sys.stderr,
+        )
+    print(f"SecondStage: open http://{arguments.host}:{arguments.port}/ (data in {settings.data_dir})", file=sys.stderr)
+    uvicorn.run(create_app(settings), host=arguments.host, port=arguments.port, log_level="warning")
+    return 0
+
+
+def _is_loopback(host: str) -> bool:
+    if host == "localhost":
+        return True
+    try:
+        return ipaddress.ip_address(host).is_loopback
+    except ValueError:
+        return False

@@ -1,0 +1,242 @@
+"""Checklists: building one from stored findings and judgements, saving judgements, exporting reports.
+
+The checklist itself is computed by :mod:`app.review` from the refit's findings
+and the reviewer's judgements every time it is shown; only the judgements and a
+summary (verdict, serious items, reproduction status) for the triage overview
+are stored.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass
+from typing import Any, Literal
+
+from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator
+from sqlalchemy import select
+from sqlalchemy.orm import Session
+
+from app.review.checklist import REVIEWER_JUDGEMENTS, Checklist, ChecklistItem, Judgement, build_checklist
+from app.review.reports import REPORT_FORMATS
+from app.services.context import ServiceContext
+from app.services.errors import InvalidInput, NotFound, NotReady, problems_from
+from app.services.records import case_info, load_refit, record_event, refit_info
+from app.services.views import (
+    ChecklistSection,
+    ChecklistView,
+    ExportedReport,
+    JudgementSaved,
+    ReportFormatInfo,
+)
+from app.store.models import Judgement as JudgementRow
+from app.store.models import Refit, utc_now
+
+REPRODUCTION_SECTION = "reproduction"
+
+REPRODUCTION_BY_STANDING = {
+    "serious": "not_reproduced",
+    "concern": "partly_reproduced",
+    "reviewer_judgement": "to_judge",
+    "sound": "reproduced",
+    "not_applicable": "nothing_claimed",
+}
+"""Reproduction status from the most pressing effective standing of the reproduction items."""
+
+MAX_NOTE_LENGTH = 20_000
+
+
+class JudgementFields(BaseModel):
+    """A judgement as submitted: one of the reviewer standings (or none) and a note."""
+
+    model_config = ConfigDict(extra="forbid")
+
+    standing: Literal[REVIEWER_JUDGEMENTS] | None = None  # type: ignore[valid-type]
+    note: str = Field(default="", max_length=MAX_NOTE_LENGTH)
+
+    @field_validator("standing", mode="before")
+    @classmethod
+    def _blank_is_none(cls, value: Any) -> Any:
+        return value or None
+
+    def judgement(self) -> Judgement:
+        return Judgement(standing=self.standing, note=self.note.strip())
+
+
+@dataclass(frozen=True)
+class Summary:
+    """What the triage overview shows for a refit."""
+
+    verdict: str
+    verdict_label: str
+    serious_items: int
+    reproduction: str
+
+
+def build(
+    findings: Mapping[str, Any],
+    *,
+    judgements: Mapping[str, Judgement],
+    variants: Mapping[str, Mapping[str, Any]] | None,
+) -> Checklist:
+    """The checklist of a refit's findings with the reviewer's judgements applied."""
+    return build_checklist(findings, judgements=judgements, variants=variants)
+
+
+def checklist_of(row: Refit, *, judgements: Mapping[str, Judgement] | None = None) -> Checklist:
+    """The checklist of a finished refit row, with its stored (or the given) judgements."""
+    return build(
+        row.findings or {},
+        judgements=judgements_of(row) if judgements is None else judgements,
+        variants=row.variants,
+    )
+
+
+def summarise(checklist: Checklist) -> Summary:
+    """Verdict, number of items standing at ``serious`` and the reproduction status."""
+    effective = [item.effective_standing for item in checklist.items]
+    reproduction = [item.effective_standing for item in checklist.items if item.section == REPRODUCTION_SECTION]
+    most_pressing = next(
+        (standing for standing in REPRODUCTION_BY_STANDING if standing in reproduction), "not_applicable"
+    )
+    return Summary(
+        verdict=checklist.verdict.code,
+        verdict_label=checklist.verdict.label,
+        serious_items=effective.count("serious"),
+        reproduction=REPRODUCTION_BY_STANDING[most_pressing],
+    )
+
+
+def store_summary(row: Refit, summary: Summary) -> None:
+    """Copy a summary onto the refit row (the only refit columns that change after it finished)."""
+    row.review_verdict = summary.verdict
+    row.review_verdict_label = summary.verdict_label
+    row.review_serious = summary.serious_items
+    row.review_reproduction = summary.reproduction
+
+
+def get_checklist(ctx: ServiceContext, *, case_id: int, refit_id: int) -> ChecklistView:
+    """The checklist page of a finished refit."""
+    with ctx.reading() as session:
+        row = _finished_refit(session, case_id, refit_id)
+        checklist = checklist_of(row)
+        return ChecklistView(
+            case=case_info(row.case),
+            refit=refit_info(row),
+            verdict=verdict_data(checklist),
+            sections=[
+                ChecklistSection(id=section, name=name, items=[item_data(item) for item in items])
+                for section, name, items in checklist.sections()
+            ],
+            judged_items=judged_count(checklist),
+            total_items=len(checklist.items),
+            report_formats=[
+                ReportFormatInfo(
+                    name=fmt.name,
+                    extension=_extension(fmt.extension),
+                    media_type=fmt.media_type,
+                    description=fmt.description,
+                )
+                for fmt in REPORT_FORMATS.values()
+            ],
+        )
+
+
+def save_judgement(
+    ctx: ServiceContext, *, case_id: int, refit_id: int, item_id: str, standing: str | None, note: str
+) -> JudgementSaved:
+    """Record the reviewer's standing and note on one item; an empty standing and note clear it."""
+    try:
+        judgement = JudgementFields(standing=standing, note=note).judgement()
+    except ValidationError as error:
+        raise InvalidInput(problems_from(error)) from None
+    now = utc_now()
+    with ctx.transaction() as session:
+        row = _finished_refit(session, case_id, refit_id)
+        judgements = judgements_of(row)
+        checklist = checklist_of(row, judgements=judgements)
+        item = next((item for item in checklist.items if item.id == item_id), None)
+        if item is None:
+            raise NotFound(f"refit {refit_id} has no checklist item '{item_id}'")
+        stored = session.scalars(
+            select(JudgementRow).where(JudgementRow.refit_id == refit_id, JudgementRow.item_id == item_id)
+        ).one_or_none()
+        cleared = judgement.standing is None and not judgement.note
+        if cleared:
+            if stored is not None:
+                session.delete(stored)
+            judgements.pop(item_id, None)
+        else:
+            if stored is None:
+                stored = JudgementRow(refit_id=refit_id, item_id=item_id)
+                session.add(stored)
+            stored.standing = judgement.standing
+            stored.note = judgement.note
+            stored.updated_at = now
+            judgements[item_id] = judgement
+        checklist = checklist_of(row, judgements=judgements)
+        store_summary(row, summarise(checklist))
+        record_event(
+            session,
+            row.case,
+            kind="judgement_saved",
+            message=f"Refit {refit_id}: {'judgement cleared' if cleared else 'judgement saved'} on '{item.item}'",
+        )
+        return JudgementSaved(
+            item=item_data(checklist.item(item_id)),
+            verdict=verdict_data(checklist),
+            judged_items=judged_count(checklist),
+            total_items=len(checklist.items),
+            saved_at=now,
+        )
+
+
+def export_report(ctx: ServiceContext, *, case_id: int, refit_id: int, format_name: str) -> ExportedReport:
+    """Render the checklist and findings in one of :data:`app.review.reports.REPORT_FORMATS`."""
+    report_format = REPORT_FORMATS.get(format_name)
+    if report_format is None:
+        raise NotFound(f"no report format '{format_name}'; choose one of {', '.join(REPORT_FORMATS)}")
+    with ctx.reading() as session:
+        row = _finished_refit(session, case_id, refit_id)
+        findings = row.findings or {}
+        checklist = checklist_of(row)
+        data_file_name = row.dataset.original_name
+    content = report_format.render(findings, checklist, data_file_name=data_file_name)
+    return ExportedReport(
+        file_name=f"secondstage-case{case_id}-refit{refit_id}{_extension(report_format.extension)}",
+        media_type=report_format.media_type,
+        content=content,
+    )
+
+
+def verdict_data(checklist: Checklist) -> dict[str, Any]:
+    """The verdict as JSON data, with the titles of the items that drive it."""
+    titles = {item.id: item.item for item in checklist.items}
+    verdict = checklist.verdict.to_dict()
+    return {**verdict, "driver_titles": {item_id: titles.get(item_id, item_id) for item_id in verdict["drivers"]}}
+
+
+def judged_count(checklist: Checklist) -> int:
+    """How many items carry a judgement or a note of the reviewer."""
+    return sum(1 for item in checklist.items if item.judgement is not None)
+
+
+def item_data(item: ChecklistItem) -> dict[str, Any]:
+    """An item as JSON data, with the standing that counts (the reviewer's when set)."""
+    return {**item.to_dict(), "effective_standing": item.effective_standing}
+
+
+def _finished_refit(session: Session, case_id: int, refit_id: int) -> Refit:
+    row = load_refit(session, case_id, refit_id)
+    if row.state != "finished":
+        reason = f"it failed: {row.error}" if row.state == "failed" else f"it is still {row.state}"
+        raise NotReady(f"refit {refit_id} has no checklist: {reason}")
+    return row
+
+
+def judgements_of(row: Refit) -> dict[str, Judgement]:
+    """The reviewer's stored judgements on a refit, by item id."""
+    return {stored.item_id: Judgement(standing=stored.standing, note=stored.note) for stored in row.judgements}
+
+
+def _extension(extension: str) -> str:
+    return extension if extension.startswith(".") else f".{extension}"

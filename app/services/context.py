@@ -1,0 +1,62 @@
+"""What every service call needs: settings, the database, the file store and the worker."""
+
+from __future__ import annotations
+
+from collections.abc import Iterator
+from contextlib import contextmanager
+import threading
+from dataclasses import dataclass, field
+
+from sqlalchemy.orm import Session
+
+from app.services.jobs import JobRunner
+from app.settings import Settings
+from app.store import migrate
+from app.store.database import Database
+from app.store.files import FileStore
+
+
+@dataclass
+class ServiceContext:
+    """The resources of one running server (or CLI command, or test).
+
+    Build it with :meth:`open` and release it with :meth:`close`.
+    """
+
+    settings: Settings
+    database: Database
+    files: FileStore
+    jobs: JobRunner
+    files_lock: threading.Lock = field(default_factory=threading.Lock)
+    """Held while a file is added or removed, so a delete never races an upload of the same bytes."""
+
+    @classmethod
+    def open(cls, settings: Settings) -> ServiceContext:
+        """Create the data directory, connect, migrate (if configured) and start the worker."""
+        settings.data_dir.mkdir(parents=True, exist_ok=True)
+        database = Database(settings.resolved_database_url)
+        if settings.migrate_on_start:
+            migrate.upgrade(database)
+        return cls(
+            settings=settings,
+            database=database,
+            files=FileStore(settings.files_dir),
+            jobs=JobRunner(threads=settings.worker_threads),
+        )
+
+    def close(self) -> None:
+        """Stop the worker (running refits finish first), then close the database."""
+        self.jobs.shutdown()
+        self.database.dispose()
+
+    @contextmanager
+    def transaction(self) -> Iterator[Session]:
+        """One unit of work: committed on success, rolled back on any error."""
+        with self.database.transaction() as session:
+            yield session
+
+    @contextmanager
+    def reading(self) -> Iterator[Session]:
+        """A read-only session."""
+        with self.database.reading() as session:
+            yield session

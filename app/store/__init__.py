@@ -1,0 +1,1 @@
+"""Persistence: SQLAlchemy models, the database connection and the content-addressed file store."""

@@ -1,0 +1,147 @@
+"""Arranging findings for the results page: the comparison tables, diagnostics grouped by question."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+from app.web.labels import DIAGNOSTIC_GROUPS, ESTIMATORS, OTHER_DIAGNOSTICS
+
+RESULT_FIELDS = frozenset(
+    {"name", "statistic", "p_value", "df", "distribution", "null_hypothesis", "standing", "reason", "source"}
+)
+"""Fields every diagnostic result has; anything else is a detail shown beneath it."""
+
+
+NAIVE_ESTIMATORS = ("ols", "pooled_ols", "random_effects")
+
+
+@dataclass(frozen=True)
+class ClaimedLine:
+    """The manuscript's numbers as printed."""
+
+    estimator: str | None
+    estimate: str
+    std_error: str | None
+
+
+@dataclass(frozen=True)
+class EstimateLine:
+    """One estimator's estimate of the focal coefficient, and its distance from the printed number."""
+
+    code: str
+    name: str
+    description: str
+    naive: bool
+    estimate: float | None
+    std_error: float | None
+    ci_low: float | None
+    ci_high: float | None
+    p_value: float | None
+    minus_claimed: float | None
+
+
+@dataclass(frozen=True)
+class EstimateTable:
+    """The comparison table of one focal regressor."""
+
+    term: str
+    outcome: str
+    claimed: ClaimedLine | None
+    lines: list[EstimateLine]
+
+
+def estimate_tables(findings: dict[str, Any]) -> list[EstimateTable]:
+    """One table per focal regressor: the manuscript's printed numbers, then every estimator."""
+    focal = [str(term) for term in findings.get("focal") or []]
+    estimators = {item.get("code"): item for item in findings.get("estimators") or [] if isinstance(item, dict)}
+    claimed = (findings.get("claim") or {}).get("claimed") or {}
+    claimed_term = claimed.get("term") or (focal[0] if focal else None)
+    printed = claimed.get("estimate")
+    tables = []
+    for term in focal:
+        line = None
+        if printed is not None and claimed_term == term:
+            line = ClaimedLine(
+                estimator=ESTIMATORS.get(claimed.get("estimator"), claimed.get("estimator")),
+                estimate=str(printed),
+                std_error=claimed.get("std_error"),
+            )
+        lines = []
+        for row in findings.get("estimates") or []:
+            if row.get("term") != term:
+                continue
+            info = estimators.get(row.get("estimator"), {})
+            estimate = row.get("estimate")
+            lines.append(
+                EstimateLine(
+                    code=row.get("estimator", ""),
+                    name=info.get("name") or ESTIMATORS.get(row.get("estimator"), row.get("estimator", "")),
+                    description=info.get("description", ""),
+                    naive=row.get("estimator") in NAIVE_ESTIMATORS,
+                    estimate=estimate,
+                    std_error=row.get("std_error"),
+                    ci_low=row.get("ci_low"),
+                    ci_high=row.get("ci_high"),
+                    p_value=row.get("p_value"),
+                    minus_claimed=estimate - float(printed) if line is not None and estimate is not None else None,
+                )
+            )
+        tables.append(EstimateTable(term=term, outcome=str(findings.get("outcome", "")), claimed=line, lines=lines))
+    return tables
+
+
+@dataclass(frozen=True)
+class DiagnosticGroup:
+    """Diagnostics that answer one question, with that question's plain meaning."""
+
+    id: str
+    title: str
+    meaning: str
+    results: list[tuple[str, dict[str, Any]]]
+
+
+def group_diagnostics(diagnostics: dict[str, Any]) -> list[DiagnosticGroup]:
+    """The diagnostics of a refit in the groups of :data:`DIAGNOSTIC_GROUPS`, then the rest.
+
+    A key holding a list (one result per focal regressor, as the first stage)
+    contributes one entry per element.
+    """
+    groups = []
+    placed: set[str] = set()
+    for group_id, title, keys, meaning in DIAGNOSTIC_GROUPS:
+        results = [entry for key in keys if key in diagnostics for entry in _entries(key, diagnostics[key])]
+        placed.update(keys)
+        if results:
+            groups.append(DiagnosticGroup(id=group_id, title=title, meaning=meaning, results=results))
+    rest = [entry for key, value in diagnostics.items() if key not in placed for entry in _entries(key, value)]
+    if rest:
+        groups.append(DiagnosticGroup(id="other", title=OTHER_DIAGNOSTICS[0], meaning=OTHER_DIAGNOSTICS[1], results=rest))
+    return groups
+
+
+def details(result: dict[str, Any]) -> dict[str, list[tuple[str, Any]]]:
+    """A result's extra fields sorted by how to show them: numbers, text, tables of coefficients, sets."""
+    shown: dict[str, list[tuple[str, Any]]] = {"numbers": [], "text": [], "coefficients": [], "sets": []}
+    for key, value in result.items():
+        if key in RESULT_FIELDS or value is None:
+            continue
+        if key == "confidence_set":
+            shown["sets"].append((key, value))
+        elif isinstance(value, bool):
+            shown["text"].append((key, "yes" if value else "no"))
+        elif isinstance(value, (int, float)):
+            shown["numbers"].append((key, value))
+        elif isinstance(value, str):
+            shown["text"].append((key, value))
+        elif isinstance(value, list) and value and all(isinstance(row, dict) and "term" in row for row in value):
+            shown["coefficients"].append((key, value))
+    return shown
+
+
+def _entries(key: str, value: Any) -> list[tuple[str, dict[str, Any]]]:
+    if isinstance(value, dict):
+        return [(key, value)]
+    if isinstance(value, list):
+        return [(key, item) for item in value if isinstance(item, dict)]
+    return []

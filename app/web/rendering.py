@@ -1,0 +1,60 @@
+"""Small helpers shared by the page routes: the service context, rendering, redirects, form reading."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from fastapi import Request
+from fastapi.responses import HTMLResponse, RedirectResponse
+from starlette.datastructures import FormData
+
+from app.services.context import ServiceContext
+from app.services.datasets import format_bytes
+from app.services.errors import FileTooLarge
+
+UPLOAD_OVERHEAD_BYTES = 64 * 1024
+"""Room for the multipart envelope and the other form fields around an uploaded file."""
+
+
+def services(request: Request) -> ServiceContext:
+    """The running server's :class:`ServiceContext` (a FastAPI dependency)."""
+    return request.app.state.services
+
+
+def render(
+    request: Request,
+    template: str,
+    *,
+    json_twin: str | None,
+    status_code: int = 200,
+    **context: Any,
+) -> HTMLResponse:
+    """Render a page; ``json_twin`` is the path of the same result as JSON (linked from the page)."""
+    templates = request.app.state.templates
+    return templates.TemplateResponse(
+        request, template, {"json_twin": json_twin, **context}, status_code=status_code
+    )
+
+
+def see_other(path: str) -> RedirectResponse:
+    """Redirect after a successful form post (POST, then GET)."""
+    return RedirectResponse(path, status_code=303)
+
+
+def is_htmx(request: Request) -> bool:
+    """Whether the request comes from htmx (which then wants a fragment, not a page)."""
+    return request.headers.get("HX-Request") == "true"
+
+
+def check_declared_size(request: Request, *, limit: int) -> None:
+    """Refuse an upload whose declared size is over the limit before reading any of it."""
+    declared = request.headers.get("content-length")
+    if declared is not None and declared.isdigit() and int(declared) > limit + UPLOAD_OVERHEAD_BYTES:
+        raise FileTooLarge(
+            f"the file is larger than this server accepts ({format_bytes(limit)}); nothing was stored"
+        )
+
+
+def form_lists(form: FormData) -> dict[str, list[str]]:
+    """A form as a mapping of each field name to all its text values (files are left out)."""
+    return {key: [value for value in form.getlist(key) if isinstance(value, str)] for key in form.keys()}

@@ -1,0 +1,87 @@
+"""Fixtures for the service tests: a server context on a temporary data directory, and demo data.
+
+The data come from the shared demo scenario (``seed_demo/cases/walking_blood_pressure``)
+and the shared simulation generator (``tests/simulation.py``); nothing is copied.
+"""
+
+from __future__ import annotations
+
+import io
+import tomllib
+from collections.abc import Iterator
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pytest
+
+from app.services import cases, claims, datasets, refits
+from app.services.context import ServiceContext
+from app.settings import Settings
+from tests.simulation import IvDesign, iv_claim, iv_sample
+
+DEMO_DIR = Path(__file__).resolve().parents[2] / "seed_demo" / "cases" / "walking_blood_pressure"
+
+
+@dataclass(frozen=True)
+class Reviewed:
+    """Ids of a case whose claim has been refitted once."""
+
+    case_id: int
+    dataset_id: int
+    claim_id: int
+    refit_id: int
+
+
+@pytest.fixture
+def settings(tmp_path: Path) -> Settings:
+    """Settings on a temporary data directory; refits are waited for, uploads capped at 4 MB."""
+    return Settings(data_dir=tmp_path / "data", refit_wait_seconds=60.0, max_upload_bytes=4 * 1024 * 1024)
+
+
+@pytest.fixture
+def ctx(settings: Settings) -> Iterator[ServiceContext]:
+    """An open service context, closed (worker stopped, engine disposed) after the test."""
+    context = ServiceContext.open(settings)
+    yield context
+    context.close()
+
+
+@pytest.fixture
+def demo_csv() -> bytes:
+    """The walking demo's data file."""
+    return (DEMO_DIR / "data.csv").read_bytes()
+
+
+@pytest.fixture
+def demo_spec() -> dict[str, Any]:
+    """The walking demo's claim as the fictional manuscript states it."""
+    return tomllib.loads((DEMO_DIR / "claim.toml").read_text(encoding="utf-8"))
+
+
+def simulated_csv(*, seed: int = 7, **design: Any) -> bytes:
+    """A simulated IV sample (shared generator) as CSV bytes."""
+    frame = iv_sample(IvDesign(**design), np.random.default_rng(seed))
+    return frame.to_csv(index=False).encode()
+
+
+def simulated_spec(**fields: Any) -> dict[str, Any]:
+    """The claim matching :func:`simulated_csv`'s columns."""
+    return iv_claim(IvDesign(), **fields)
+
+
+def upload(ctx: ServiceContext, case_id: int, content: bytes, name: str = "data.csv") -> int:
+    """Upload bytes as the case's next data version; returns the dataset id."""
+    return datasets.upload_dataset(ctx, case_id=case_id, source=io.BytesIO(content), file_name=name).dataset.id
+
+
+@pytest.fixture
+def reviewed(ctx: ServiceContext, demo_csv: bytes, demo_spec: dict[str, Any]) -> Reviewed:
+    """The walking demo opened, uploaded, entered and refitted through the services."""
+    case_id = cases.create_case(ctx, title="Walking and blood pressure", reference="MS-2026-0117").case.id
+    dataset_id = upload(ctx, case_id, demo_csv, "walking.csv")
+    claim_id = claims.create_claim(ctx, case_id=case_id, dataset_id=dataset_id, spec=demo_spec).claim.id
+    refit = refits.start_refit(ctx, case_id=case_id, claim_id=claim_id, dataset_id=dataset_id)
+    assert refit.state == "finished", refit.error
+    return Reviewed(case_id=case_id, dataset_id=dataset_id, claim_id=claim_id, refit_id=refit.id)

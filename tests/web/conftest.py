@@ -1,0 +1,73 @@
+"""Fixtures for the route tests: the app on a temporary data directory, driven in-process."""
+
+from __future__ import annotations
+
+import tomllib
+from collections.abc import Iterator
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import pytest
+from fastapi.testclient import TestClient
+
+from app.settings import Settings
+from app.web.app import create_app
+
+DEMO_DIR = Path(__file__).resolve().parents[2] / "seed_demo" / "cases" / "walking_blood_pressure"
+UPLOAD_LIMIT = 2 * 1024 * 1024
+
+
+@dataclass(frozen=True)
+class Reviewed:
+    """Ids of a case reviewed once through the JSON API."""
+
+    case_id: int
+    dataset_id: int
+    claim_id: int
+    refit_id: int
+
+    @property
+    def case(self) -> str:
+        return f"/cases/{self.case_id}"
+
+    @property
+    def refit(self) -> str:
+        return f"/cases/{self.case_id}/refits/{self.refit_id}"
+
+
+@pytest.fixture
+def settings(tmp_path: Path) -> Settings:
+    return Settings(data_dir=tmp_path / "data", refit_wait_seconds=60.0, max_upload_bytes=UPLOAD_LIMIT)
+
+
+@pytest.fixture
+def client(settings: Settings) -> Iterator[TestClient]:
+    """The app with its lifespan running (database, worker), closed after the test."""
+    with TestClient(create_app(settings)) as test_client:
+        yield test_client
+
+
+@pytest.fixture
+def demo_csv() -> bytes:
+    return (DEMO_DIR / "data.csv").read_bytes()
+
+
+@pytest.fixture
+def demo_spec() -> dict[str, Any]:
+    return tomllib.loads((DEMO_DIR / "claim.toml").read_text(encoding="utf-8"))
+
+
+@pytest.fixture
+def reviewed(client: TestClient, demo_csv: bytes, demo_spec: dict[str, Any]) -> Reviewed:
+    """The walking demo reviewed once: case, upload, claim and refit through /api/v1."""
+    case_id = client.post("/api/v1/cases", json={"title": "Walking and blood pressure", "reference": "MS-17"}).json()[
+        "case"
+    ]["id"]
+    uploaded = client.post(f"/api/v1/cases/{case_id}/datasets", files={"file": ("walking.csv", demo_csv, "text/csv")})
+    dataset_id = uploaded.json()["dataset"]["id"]
+    claim = client.post(f"/api/v1/cases/{case_id}/claims", json={"dataset_id": dataset_id, "spec": demo_spec})
+    claim_id = claim.json()["claim"]["id"]
+    refit = client.post(f"/api/v1/cases/{case_id}/refits", json={"claim_id": claim_id, "dataset_id": dataset_id})
+    assert refit.json()["state"] == "finished", refit.json()
+    return Reviewed(case_id=case_id, dataset_id=dataset_id, claim_id=claim_id, refit_id=refit.json()["id"])
