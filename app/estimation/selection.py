@@ -48,6 +48,7 @@ Data, 2nd ed., ch. 19 and 21. MIT Press.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from dataclasses import dataclass
 from typing import Any
@@ -145,7 +146,7 @@ def _refit_selected_sample(frame: pd.DataFrame, spec: ClaimSpec, provenance: dic
     index = probit.index[chosen]
     mills = mills_ratio(index)
     stacked = np.column_stack([outcome[chosen], probit_data[chosen][:, outcome_columns], mills])
-    clusters = [codes[keep][chosen] for codes in design.clusters]
+    clusters = [pd.factorize(codes[keep][chosen])[0].astype(np.int64) for codes in design.clusters]
     p = len(design.endogenous)
     terms = [probit_names[j] for j in outcome_columns]
     naive = _ols_step(stacked[:, :-1], n_endog=p, terms=terms, code="ols", spec=spec, clusters=clusters)
@@ -179,7 +180,7 @@ def _refit_selected_sample(frame: pd.DataFrame, spec: ClaimSpec, provenance: dic
     return _findings(
         spec,
         provenance,
-        design=design,
+        design=dataclasses.replace(design, clusters=clusters),
         n_obs=int(chosen.sum()),
         sample=sample,
         variance=naive.variance,

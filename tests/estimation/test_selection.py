@@ -291,3 +291,11 @@ def test_treatment_that_is_not_binary_is_refused(choice: pd.DataFrame) -> None:
 def test_selection_claim_without_indicator_or_instruments_is_refused() -> None:
     with pytest.raises(SpecError, match="needs a 'selected' indicator column"):
         parse_claim(choice_claim(instruments=[]))
+
+
+def test_clusters_are_counted_among_the_selected_rows(mroz: pd.DataFrame) -> None:
+    """Clusters with no selected row do not count: G - 1 degrees of freedom over the outcome sample."""
+    frame = mroz.assign(county=np.where(mroz["inlf"] == 1, np.arange(len(mroz)) % 30, 30 + np.arange(len(mroz)) % 20))
+    findings = refit(frame, parse_claim(mroz_claim(covariance="cluster", cluster=["county"]))).to_dict()
+    assert rows_by(findings)[("ols", "educ")]["df"] == 29
+    assert findings["covariance"]["clusters"] == [{"column": "county", "count": 30}]
