@@ -64,6 +64,11 @@ def p_value(value: object) -> str:
     return f"p = {p:.4f}" if p < 0.001 else f"p = {p:.3f}"
 
 
+def p_value_cell(value: object) -> str:
+    """A p-value for a table column: ``0.031`` or ``< 0.0001``."""
+    return p_value(value).removeprefix("p = ").removeprefix("p ")
+
+
 def interval(low: object, high: object) -> str:
     """A closed interval; a missing end is unbounded."""
     left = "-inf" if as_number(low) is None else number(low)

@@ -8,12 +8,11 @@ and what the checklist must therefore say.
 from __future__ import annotations
 
 import numpy as np
-import pytest
 
-from app.estimation.refit import DESIGN_REFITS, refit
+from app.estimation.refit import refit
 from app.review.checklist import build_checklist
 from app.review.reproduction import covariance_variants
-from app.spec import Design, parse_claim
+from app.spec import parse_claim
 from tests.design_simulation import MediationDesign, mediation_sample
 from tests.simulation import IvDesign, iv_claim, iv_sample
 
@@ -59,9 +58,6 @@ def test_an_invalid_instrument_is_flagged_and_named():
     assert "z3" in blamed.question and "z1" not in blamed.question and "z2" not in blamed.question
 
 
-@pytest.mark.xfail(
-    Design.MEDIATION not in DESIGN_REFITS, reason="the engine's mediation design (issue 4) is not wired in yet", strict=True
-)
 def test_a_mediator_claim_from_a_randomized_experiment_raises_the_mediator_item():
     frame = mediation_sample(MediationDesign(), np.random.default_rng(2024))
     claim = {

@@ -140,3 +140,16 @@ def test_formats_declare_media_type_and_extension():
         assert report.name == name
         assert report.extension.startswith(".")
         assert "/" in report.media_type
+
+
+def test_reviewer_notes_reach_every_report():
+    judgement = {"exclusion.monotonicity": Judgement("sound", "Nobody avoids training because of the lottery.")}
+    for name in ("text", "markdown", "html", "json"):
+        assert "Nobody avoids training because of the lottery." in render(name, iv_findings(), judgements=judgement)
+
+
+def test_the_refit_warnings_reach_every_report():
+    findings = iv_findings()
+    findings["warnings"] = ["'tenure_years' is nearly collinear with (intercept)"]
+    for name in ("text", "markdown", "html"):
+        assert "nearly collinear" in render(name, findings)

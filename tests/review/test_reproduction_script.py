@@ -28,7 +28,8 @@ from app.review.reports import REPORT_FORMATS
 from app.spec import load_claim, parse_claim
 from seed_demo.build import write_case
 from seed_demo.scenarios import all_scenarios
-from tests.simulation import IvDesign, iv_claim, iv_sample
+from tests.design_simulation import PanelDesign, SelectionDesign, panel_sample, selection_sample
+from tests.simulation import IvDesign, iv_sample
 
 RELATIVE_TOLERANCE = 1e-8
 LINE = re.compile(r"^(?P<key>[^\s=#][^=]*?) = (?P<value>\S+)$")
@@ -177,3 +178,37 @@ def test_script_turns_claim_text_into_literals_only(tmp_path):
     output = run_script(findings, data_file, tmp_path)
     assert "injected" not in output.replace(hostile_value, "")
     assert key_numbers(output)["n_obs"] == findings["n_obs"] < 450
+
+
+OTHER_DESIGNS = {
+    "selection: OLS on the selected rows": (
+        lambda rng: selection_sample(SelectionDesign(), rng),
+        {"design": "selection", "outcome": "outcome", "endogenous": ["regressor"], "selected": "selected",
+         "selection_covariates": ["regressor", "excluded"], "covariance": "robust", "claimed": {"estimator": "ols"}},
+        ["ols"],
+    ),
+    "panel with classical errors": (
+        lambda rng: panel_sample(PanelDesign(), rng),
+        {"design": "panel", "unit": "firm", "time": "period", "outcome": "outcome", "endogenous": ["focal"],
+         "controls": ["control", "steady"], "covariance": "homoskedastic"},
+        ["pooled_ols", "within", "random_effects"],
+    ),
+    "panel with robust errors": (
+        lambda rng: panel_sample(PanelDesign(), rng),
+        {"design": "panel", "unit": "firm", "time": "period", "outcome": "outcome", "endogenous": ["focal"],
+         "controls": ["control", "steady"], "covariance": "robust"},
+        ["pooled_ols", "within", "random_effects"],
+    ),
+}
+
+
+@pytest.mark.parametrize("case", list(OTHER_DESIGNS), ids=list(OTHER_DESIGNS))
+def test_script_for_the_other_designs(case, tmp_path):
+    generate, claim, codes = OTHER_DESIGNS[case]
+    data_file = tmp_path / "design.csv"
+    generate(np.random.default_rng(31)).to_csv(data_file, index=False)
+    findings = refit(pd.read_csv(data_file), parse_claim(claim)).to_dict()
+    numbers = key_numbers(run_script(findings, data_file, tmp_path))
+    term = claim["endogenous"][0]
+    expected = {"n_obs"} | {f"{code}.{field}[{term}]" for code in codes for field in ("estimate", "std_error")}
+    assert_same_numbers(findings, numbers, expected_keys=expected)

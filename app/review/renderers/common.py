@@ -63,7 +63,7 @@ def estimate_lines(view: FindingsView) -> list[EstimateLine]:
 
 
 def sample_lines(view: FindingsView) -> list[str]:
-    """How the estimation sample came about, one sentence each."""
+    """How the estimation sample came about, one sentence each, then the refit's own warnings."""
     sample = view.sample
     lines = [f"Rows in the data file: {count(sample.get('rows_read'))}."]
     for step in view.sample_entries("filters"):
@@ -77,6 +77,7 @@ def sample_lines(view: FindingsView) -> list[str]:
     if sample.get("singletons_dropped"):
         lines.append(f"Singleton groups of the fixed effects removed: {count(sample['singletons_dropped'])}.")
     lines.append(f"Observations used: {count(view.n_obs)}.")
+    lines += [f"Refit note: {warning}" for warning in view.warnings]
     return lines
 
 

@@ -13,7 +13,7 @@ from html import escape
 from typing import Any
 
 from app.review.checklist import Checklist, ChecklistItem
-from app.review.formatting import number, p_value
+from app.review.formatting import number, p_value_cell
 from app.review.renderers.common import (
     CAUTION,
     PRODUCT,
@@ -120,7 +120,7 @@ def _estimates(view: FindingsView) -> list[str]:
                     tag("td", text(number(line.estimate)), class_="num"),
                     tag("td", text(number(line.std_error)), class_="num"),
                     tag("td", text(interval_text(line))),
-                    tag("td", text(p_value(line.p_value).removeprefix("p = ")), class_="num"),
+                    tag("td", text(p_value_cell(line.p_value)), class_="num"),
                 ],
                 **({"class_": "claimed"} if line.claimed else {}),
             )
@@ -171,12 +171,20 @@ def _left_to_reviewer(checklist: Checklist) -> list[str]:
     return [tag("h2", text("Points for the reviewer's own judgement")), tag("ul", entries)]
 
 
+def _reading(item: ChecklistItem) -> str:
+    """The standing, and the reviewer's note when there is one."""
+    reading = text(standing_words(item))
+    if item.judgement and item.judgement.note:
+        reading += tag("p", text(f"Reviewer's note: {item.judgement.note}"), class_="meta")
+    return reading
+
+
 def _full_checklist(checklist: Checklist) -> list[str]:
     out = []
     for _, title, items in checklist.sections():
         out.append(tag("h3", text(title)))
         rows = [
-            tag("tr", [tag("td", text(item.item)), tag("td", text(standing_words(item))), tag("td", text(item.evidence))])
+            tag("tr", [tag("td", text(item.item)), tag("td", _reading(item)), tag("td", text(item.evidence))])
             for item in items
         ]
         header = tag("tr", [tag("th", text(h)) for h in ("Item", "Reading", "Evidence")])

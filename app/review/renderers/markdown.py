@@ -14,7 +14,7 @@ from collections.abc import Mapping
 from typing import Any
 
 from app.review.checklist import Checklist
-from app.review.formatting import number, p_value
+from app.review.formatting import number, p_value_cell
 from app.review.renderers.common import (
     CAUTION,
     PRODUCT,
@@ -85,7 +85,8 @@ def render_markdown(findings: Mapping[str, Any], checklist: Checklist, *, data_f
     lines += ["## Full checklist", "", "| Section | Item | Reading | Evidence |", "| --- | --- | --- | --- |"]
     titles = {section: title for section, title, _ in checklist.sections()}
     for item in checklist.items:
-        lines.append(f"| {cell(titles[item.section])} | {cell(item.item)} | {cell(standing_words(item))} | {cell(item.evidence)} |")
+        reading = standing_words(item) + (f". Reviewer's note: {item.judgement.note}" if item.judgement and item.judgement.note else "")
+        lines.append(f"| {cell(titles[item.section])} | {cell(item.item)} | {cell(reading)} | {cell(item.evidence)} |")
     lines += ["", "---", "", *(f"*{inline(sentence)}*" for sentence in CAUTION), ""]
     lines.append(f"*Prepared with {PRODUCT}; every number above can be recomputed with its reproduction script.*")
     return "\n".join(lines) + "\n"
@@ -117,7 +118,7 @@ def _estimates_table(view: FindingsView) -> list[str]:
             name = f"{line.name} (claimed)" if line.claimed else line.name
             out.append(
                 f"| {cell(name)} | {cell(number(line.estimate))} | {cell(number(line.std_error))} | "
-                f"{cell(interval_text(line))} | {cell(p_value(line.p_value).removeprefix('p = '))} |"
+                f"{cell(interval_text(line))} | {cell(p_value_cell(line.p_value))} |"
             )
         out.append("")
     return out

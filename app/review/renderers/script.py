@@ -14,11 +14,13 @@ Every literal taken from the claim (column names, filter values, file name)
 is written with :func:`repr`, so no text from the claim can become code.
 
 Scope: the ``iv``, ``regression`` and ``mediation`` designs (OLS, 2SLS,
-LIML, Fuller, two-step GMM, first-stage F, Sargan or Hansen J). Panel and
-selection designs are refitted by estimators the script does not rewrite;
-for them it recomputes the pooled OLS and IV numbers and says so. Two-step
-GMM and Hansen J are left out under two-way clustering, which linearmodels'
-GMM weight does not support.
+LIML, Fuller, two-step GMM, the naive fit holding the randomized arms fixed,
+first-stage F, Sargan or Hansen J) and the ``panel`` design (pooled OLS,
+within, random effects as linearmodels computes them, when the claim has no
+weights, extra fixed effects or two-way clusters). For the ``selection``
+design the script recomputes the OLS fit on the selected rows; the Heckman
+correction is not rewritten. Two-step GMM and Hansen J are left out under
+two-way clustering, which linearmodels' GMM weight does not support.
 """
 
 from __future__ import annotations
@@ -185,7 +187,7 @@ def _main(view: FindingsView) -> str:
     outcome = view.outcome
     focal = view.design_columns("endogenous") or view.focal_terms
     instruments = view.instruments
-    exogenous = view.design_columns("exogenous")
+    exogenous = view.design_columns("exogenous") or _exogenous_from_claim(view)
     controls = view.claim_names("controls")
     fixed_effects = view.claim_names("fixed_effects")
     clusters = view.claim_names("cluster")
@@ -196,7 +198,7 @@ def _main(view: FindingsView) -> str:
     body = ["", "", "def main() -> None:"]
     if view.design not in SCRIPTED_DESIGNS:
         body += [
-            f"    # The claim's design ({view.design}) has its own estimators, which this script does not rewrite;",
+            f"    # The claim's design ({view.design!r}) has its own estimators, which this script does not rewrite;",
             "    # it recomputes the pooled regression and instrumental-variable numbers only.",
         ]
     body += ["    print(f'# Key numbers for: {CLAIM_TITLE}')", "    frame = read_data(DATA_FILE)"]
@@ -236,11 +238,25 @@ def _main(view: FindingsView) -> str:
         "    n_obs = len(outcome)",
     ]
     body += _fit_options(clusters, cov_type=cov_type)
+    if view.design == "panel" and instruments:
+        body.append("    # Fixed effects with instruments (within 2SLS) is not rewritten here.")
+        instruments = []
     body += _fits(
         view=view, focal=focal, instruments=instruments, exogenous=exogenous, weight_type=weight_type,
         clusters=clusters, kind=kind,
     )
     return "\n".join(body) + "\n"
+
+
+def _exogenous_from_claim(view: FindingsView) -> list[str]:
+    """The included regressors as the engine names them, for findings that do not record the design's columns."""
+    intercept = view.claim.get("intercept", True) is not False and not view.claim_names("fixed_effects")
+    indicators = [
+        f"{expansion.get('column')}={level}"
+        for expansion in view.sample_entries("categorical")
+        for level in expansion.get("levels") or []
+    ]
+    return [INTERCEPT] * intercept + view.claim_names("controls") + indicators
 
 
 def _filters(view: FindingsView) -> list[str]:

@@ -14,7 +14,7 @@ from collections.abc import Mapping
 from typing import Any
 
 from app.review.checklist import Checklist, ChecklistItem
-from app.review.formatting import count, number, p_value
+from app.review.formatting import count, number, p_value_cell
 from app.review.renderers.common import (
     CAUTION,
     PRODUCT,
@@ -30,6 +30,8 @@ from app.review.view import FindingsView
 
 WIDTH = 96
 INDENT = "    "
+NAME_WIDTH = 32
+"""Longest estimator name shown in full in the table of estimates."""
 
 
 def wrap(text: str, *, indent: str = "", hanging: str | None = None) -> list[str]:
@@ -54,8 +56,6 @@ def render_text(findings: Mapping[str, Any], checklist: Checklist, *, data_file_
     lines += wrap(claimed_sentence(view))
     lines += heading(f"Verdict: {verdict.label}")
     lines += wrap(verdict.summary)
-    if verdict.drivers:
-        lines += wrap(f"Driven by: {', '.join(verdict.drivers)}")
     lines += heading("Model and sample")
     for sentence in [*model_lines(view), *sample_lines(view)]:
         lines += wrap(sentence, indent="  ", hanging="    ")
@@ -85,17 +85,22 @@ def _estimates(view: FindingsView) -> list[str]:
     for term, lines in lines_by_term.items():
         out += heading(f"Effect of {term} on {view.outcome}")
         out.append(f"  standard errors: {view.variance_label}")
-        header = f"  {'':2}{'estimator':<30}{'estimate':>11}{'std. error':>12}   {'95% interval':<26}{'p-value':>11}"
+        width = min(max(len("estimator"), *(len(line.name) for line in lines)), NAME_WIDTH) + 2
+        header = f"  {'':2}{'estimator':<{width}}{'estimate':>11}{'std. error':>12}   {'95% interval':<26}{'p-value':>10}"
         out += ["", header, "  " + "-" * (len(header) - 2)]
         for line in lines:
             marker = "->" if line.claimed else ""
             out.append(
-                f"  {marker:2}{line.name[:29]:<30}{number(line.estimate):>11}{number(line.std_error):>12}   "
-                f"{interval_text(line):<26}{p_value(line.p_value).removeprefix('p = '):>11}"
+                f"  {marker:2}{_fit(line.name, width - 2):<{width}}{number(line.estimate):>11}{number(line.std_error):>12}   "
+                f"{interval_text(line):<26}{p_value_cell(line.p_value):>10}"
             )
         if any(line.claimed for line in lines):
             out.append("  (-> the estimator the claim reports)")
     return out
+
+
+def _fit(name: str, width: int) -> str:
+    return name if len(name) <= width else name[: width - 3] + "..."
 
 
 def _item(item: ChecklistItem) -> list[str]:

@@ -173,7 +173,8 @@ def assess_selection(view: FindingsView) -> Outcome:
         f"{statistic(test.get('statistic'), distribution=test.get('distribution'), df=test.get('df'))}, {p_value(p)}; "
         f"rho = {number(test.get('rho'))}, sigma = {number(test.get('sigma'))}."
     )
-    excluded = _excluded_from_outcome(view)
+    engine_excluded = test.get("excluded_from_outcome_equation")
+    excluded = [str(c) for c in engine_excluded] if isinstance(engine_excluded, list) else _excluded_from_outcome(view)
     if view.claimed_estimator in NAIVE_ESTIMATORS and significant(p):
         return Outcome(
             "serious",
