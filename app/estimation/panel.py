@@ -315,11 +315,10 @@ def sort_by_unit(frame: pd.DataFrame, spec: ClaimSpec, design: DesignMatrices) -
         pairs = pd.DataFrame({"unit": codes, "period": periods})
         repeated = pairs.duplicated()
         if repeated.any():
-            first = int(np.flatnonzero(repeated.to_numpy())[0])
+            example = frame.iloc[design.rows[int(np.flatnonzero(repeated.to_numpy())[0])]]
             raise DesignError(
                 f"{int(repeated.sum()):,} row(s) repeat a unit and period already seen (e.g. {spec.unit} = "
-                f"{frame[spec.unit].iloc[design.rows[first]]!r}, {spec.time} = {frame[spec.time].iloc[design.rows[first]]!r}); "
-                "a panel has one row per unit and period"
+                f"{example[spec.unit]}, {spec.time} = {example[spec.time]}); a panel has one row per unit and period"
             )
         n_periods = int(periods.max()) + 1
     counts = np.bincount(codes)

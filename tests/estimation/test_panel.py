@@ -242,7 +242,8 @@ def test_focal_regressor_constant_within_units_is_absorbed_not_an_error(unbalanc
 
 def test_repeated_unit_period_pairs_are_refused(unbalanced: pd.DataFrame) -> None:
     doubled = pd.concat([unbalanced, unbalanced.iloc[:1]])
-    with pytest.raises(DesignError, match="repeat a unit and period"):
+    first = unbalanced.iloc[0]
+    with pytest.raises(DesignError, match=f"repeat a unit and period already seen \\(e.g. firm = {first['firm']}, period = {first['period']}\\)"):
         refit(doubled, parse_claim(simulated_claim()))
 
 

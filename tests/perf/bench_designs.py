@@ -52,7 +52,7 @@ def simulate_panel(n_rows: int, n_units: int, seed: int = 2025) -> pd.DataFrame:
     controls = rng.standard_normal((n, N_CONTROLS))
     focal = 0.6 * effect[unit] + controls[:, 0] * 0.3 + rng.standard_normal(n)
     outcome = 0.5 * focal + controls @ np.linspace(-0.3, 0.3, N_CONTROLS) + effect[unit] + rng.standard_normal(n)
-    columns = {"unit": unit, "period": np.minimum(period, 15), "outcome": outcome, "focal": focal}
+    columns = {"unit": unit, "period": period, "outcome": outcome, "focal": focal}
     columns.update({f"control_{j}": controls[:, j] for j in range(N_CONTROLS)})
     return pd.DataFrame(columns)
 
