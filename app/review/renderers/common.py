@@ -96,7 +96,9 @@ def model_lines(view: FindingsView) -> list[str]:
         lines.append(f"Fixed effects absorbed: {', '.join(view.claim_names('fixed_effects'))}.")
     if view.claim_name("weights"):
         lines.append(f"Analytic weights: {view.claim_name('weights')}.")
-    lines.append(f"Standard errors: {view.variance_label}; {view.covariance.get('small_sample') or 'no small-sample note'}.")
+    small_sample = view.covariance.get("small_sample")
+    factor = f"; small-sample factor {small_sample}" if small_sample else ""
+    lines.append(f"Standard errors: {view.variance_label}{factor}.")
     return lines
 
 
