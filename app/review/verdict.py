@@ -12,9 +12,11 @@ applies decides:
 4. ``fragile`` — any item is a concern.
 5. ``holds_up`` — otherwise.
 
-The drivers are the first :data:`MAX_DRIVERS` items, in checklist order, whose
-standing triggered the rule; for ``holds_up`` they are the first sound items
-of :data:`KEY_ITEMS`. Items left to the reviewer and not yet judged do not
+The drivers are the items whose standing triggered the rule, at most
+:data:`MAX_DRIVERS` and at most one per section (the first in checklist
+order), so that two findings of different kinds are named rather than two
+readings of the same one; for ``holds_up`` they are the first sound items of
+:data:`KEY_ITEMS`. Items left to the reviewer and not yet judged do not
 move the verdict; the summary counts them, because the verdict is final only
 once the reviewer has read them.
 """
@@ -65,21 +67,29 @@ def decide_verdict(items: Sequence[ChecklistItem], view: FindingsView) -> Verdic
     serious = [i for i in items if i.section != "reproduction" and i.effective_standing == "serious"]
     concerns = [i for i in items if i.effective_standing == "concern"]
     if reproduction:
-        drivers = reproduction[:MAX_DRIVERS]
+        drivers = _one_per_section(reproduction)
         summary = f"The stated model, refitted on the data, does not give the printed numbers (in doubt: {_titles(drivers)}). {estimate}"
         return _verdict("not_reproduced", _with_pending(summary, pending), drivers)
     if serious:
-        drivers = serious[:MAX_DRIVERS]
+        drivers = _one_per_section(serious)
         summary = f"{estimate} In serious doubt: {_titles(drivers)}."
         return _verdict("not_supported", _with_pending(summary, pending), drivers)
     if concerns:
-        drivers = concerns[:MAX_DRIVERS]
+        drivers = _one_per_section(concerns)
         summary = f"{estimate} Open to question: {_titles(drivers)}."
         return _verdict("fragile", _with_pending(summary, pending), drivers)
     by_id = {i.id: i for i in items}
     drivers = [by_id[key] for key in KEY_ITEMS if key in by_id and by_id[key].effective_standing == "sound"]
     summary = f"{estimate} No automatic check raises a concern."
     return _verdict("holds_up", _with_pending(summary, pending), drivers[:MAX_DRIVERS])
+
+
+def _one_per_section(items: Sequence[ChecklistItem]) -> list[ChecklistItem]:
+    """The first item of each section, in checklist order, at most :data:`MAX_DRIVERS`."""
+    first: dict[str, ChecklistItem] = {}
+    for item in items:
+        first.setdefault(item.section, item)
+    return list(first.values())[:MAX_DRIVERS]
 
 
 def _verdict(code: str, summary: str, drivers: Sequence[ChecklistItem]) -> Verdict:

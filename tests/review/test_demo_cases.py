@@ -1,8 +1,9 @@
 """Every demo case reviews into a checklist and verdict that show what its scenario was built to show.
 
 The scenarios (seed_demo/scenarios) document their truth: case 1 has one
-invalid instrument, the mediation case rests on a naive mediator
-regression, the panel case fits random effects although the unit effects
+invalid instrument, the weak-instrument case has a usual interval that
+excludes zero while the Anderson-Rubin set does not, the mediation case rests
+on a naive mediator regression, the panel case fits random effects although the unit effects
 correlate with the regressor. Every demo claim is flawed by design, so no
 verdict may be "holds up". Cases are built into a temporary folder by the
 demo's own generator.
@@ -24,6 +25,7 @@ EXPECTED_SERIOUS = {
     "walking_blood_pressure": "overidentification.joint_test",
     "tutoring_hours_exam": "design.mediator",
     "clinic_reminder_calls": "design.panel_effects",
+    "budgeting_app_card_debt": "inference.weak_iv_robust",
 }
 """The item each known scenario was built to raise; every demo claim is flawed, so none holds up."""
 

@@ -56,12 +56,12 @@ def test_no_estimate_of_the_claimed_coefficient_is_undetermined():
     assert verdict.drivers == []
 
 
-def test_at_most_two_drivers_in_checklist_order():
+def test_at_most_two_drivers_one_per_section_in_checklist_order():
     findings = with_diagnostic(iv_findings(), "hansen_j", result(25.0, 1e-6, df=1, distribution="chi2"))
     findings = with_diagnostic(findings, "effective_f", effective_f(5.0))
     findings = with_diagnostic(findings, "kleibergen_paap_rk_lm", result(1.0, 0.6, df=2, distribution="chi2"))
     verdict = verdict_of(findings)
-    assert verdict.drivers == ["relevance.effective_f", "relevance.identification"]
+    assert verdict.drivers == ["relevance.effective_f", "overidentification.joint_test"]
 
 
 def test_the_reviewer_can_overrule_an_automatic_standing():
