@@ -23,7 +23,11 @@ def as_number(value: object) -> float | None:
 
 
 def number(value: object, *, digits: int = SIGNIFICANT_DIGITS) -> str:
-    """A number with ``digits`` significant digits, in plain notation where it reads well."""
+    """A number with ``digits`` significant digits, in plain notation where it reads well.
+
+    No thousands separators: numbers often stand in intervals and lists
+    (``[-7.769, 14967]``) where a comma would read as a separator.
+    """
     x = as_number(value)
     if x is None:
         return MISSING
@@ -32,8 +36,8 @@ def number(value: object, *, digits: int = SIGNIFICANT_DIGITS) -> str:
     magnitude = abs(x)
     if magnitude >= 1e7 or magnitude < 1e-4:
         return f"{x:.{digits - 1}e}"
-    decimals = max(0, digits - 1 - math.floor(math.log10(magnitude)))
-    return f"{x:,.{decimals}f}"
+    places = max(0, digits - 1 - math.floor(math.log10(magnitude)))
+    return f"{x:.{places}f}"
 
 
 def setting(value: object) -> str:
@@ -45,7 +49,7 @@ def setting(value: object) -> str:
 def decimals(value: object, places: int) -> str:
     """A number with a fixed number of decimal places (used beside a printed number)."""
     x = as_number(value)
-    return MISSING if x is None else f"{x:,.{max(places, 0)}f}"
+    return MISSING if x is None else f"{x:.{max(places, 0)}f}"
 
 
 def count(value: object) -> str:
@@ -91,10 +95,15 @@ def confidence_set(pieces: object) -> str:
 
 
 def degrees_of_freedom(df: object) -> str:
-    """``1`` or ``2, 423`` for an F test."""
+    """``1`` or ``2, 423`` for an F test (no thousands separators, which would read as a second comma)."""
     if isinstance(df, Sequence) and not isinstance(df, str):
-        return ", ".join(count(d) for d in df)
-    return count(df)
+        return ", ".join(_whole(d) for d in df)
+    return _whole(df)
+
+
+def _whole(value: object) -> str:
+    x = as_number(value)
+    return MISSING if x is None else str(int(round(x)))
 
 
 def statistic(value: object, *, distribution: object, df: object) -> str:
