@@ -58,11 +58,8 @@ def decide_verdict(items: Sequence[ChecklistItem], view: FindingsView) -> Verdic
     pending = [i for i in items if i.effective_standing == "reviewer_judgement"]
     estimate = _estimate_sentence(view)
     if estimate is None:
-        return _verdict(
-            "undetermined",
-            "The findings hold no estimate of the claimed coefficient, so the claim cannot be judged.",
-            [],
-        )
+        missing = f"{view.estimator_name(view.claimed_estimator)} estimate of {view.focal_term or 'the focal regressor'}"
+        return _verdict("undetermined", f"The findings hold no {missing}, so the claim cannot be judged.", [])
     reproduction = [i for i in items if i.section == "reproduction" and i.effective_standing == "serious"]
     serious = [i for i in items if i.section != "reproduction" and i.effective_standing == "serious"]
     concerns = [i for i in items if i.effective_standing == "concern"]
