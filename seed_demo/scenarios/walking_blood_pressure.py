@@ -101,7 +101,7 @@ def claim() -> dict:
         "claimed": {
             "estimator": "2sls",
             "term": "daily_steps_k",
-            "estimate": "-2.85",
+            "estimate": "-2.84",
             "std_error": "0.23",
             "n_obs": 2394,
             "first_stage_f": "297.5",
