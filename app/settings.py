@@ -36,6 +36,9 @@ class Settings(BaseSettings):
         quick refits therefore open straight on their results.
     migrate_on_start
         Upgrade the database schema when the server starts.
+    page_cache_entries
+        Rendered case, results and checklist pages kept in memory, each valid
+        until the case changes; 0 turns the cache off.
     """
 
     model_config = SettingsConfigDict(env_prefix="SECONDSTAGE_", extra="forbid")
@@ -48,6 +51,7 @@ class Settings(BaseSettings):
     worker_threads: int = Field(default=1, ge=1, le=16)
     refit_wait_seconds: float = Field(default=3.0, ge=0.0, le=60.0)
     migrate_on_start: bool = True
+    page_cache_entries: int = Field(default=256, ge=0)
 
     @property
     def resolved_database_url(self) -> str:

@@ -6,7 +6,7 @@ from pydantic import BaseModel, ConfigDict, Field, ValidationError
 from sqlalchemy import func, select
 
 from app.services.context import ServiceContext
-from app.services.errors import InvalidInput, Problem, problems_from
+from app.services.errors import InvalidInput, NotFound, Problem, problems_from
 from app.services.records import (
     case_info,
     claim_info,
@@ -181,6 +181,18 @@ def get_case(ctx: ServiceContext, *, case_id: int) -> CaseDetail:
             refits=[refit_info(refit) for refit in refits],
             events=[event_info(event) for event in events],
         )
+
+
+def case_revision(ctx: ServiceContext, *, case_id: int) -> int:
+    """How many changes the case has seen; pages of the case can be reused while it stays the same.
+
+    Asked before every cached page, so it reads one value on a plain connection (no ORM session).
+    """
+    with ctx.database.engine.connect() as connection:
+        revision = connection.scalar(select(Case.revision).where(Case.id == case_id))
+    if revision is None:
+        raise NotFound(f"there is no case {case_id}")
+    return revision
 
 
 def delete_case(ctx: ServiceContext, *, case_id: int) -> None:

@@ -45,8 +45,9 @@ class ServiceContext:
         )
 
     def close(self) -> None:
-        """Stop the worker (running refits finish first), then close the database."""
+        """Stop the worker (running refits finish first), then close the file store and the database."""
         self.jobs.shutdown()
+        self.files.close()
         self.database.dispose()
 
     @contextmanager

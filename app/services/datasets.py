@@ -11,7 +11,7 @@ from __future__ import annotations
 import re
 import unicodedata
 from pathlib import Path, PurePosixPath, PureWindowsPath
-from typing import Any, BinaryIO
+from typing import Any
 
 import pandas as pd
 from sqlalchemy import func, select
@@ -24,14 +24,14 @@ from app.services.errors import FileRefused, FileTooLarge
 from app.services.records import case_info, dataset_info, load_case, load_dataset, record_event
 from app.services.views import DatasetDetail
 from app.settings import Settings
-from app.store.files import FileExceedsLimit
+from app.store.files import FileExceedsLimit, Readable
 from app.store.models import Dataset
 
 MAX_NAME_LENGTH = 255
 _UNSAFE_NAME_CHARACTERS = re.compile(r"[\x00-\x1f\x7f]")
 
 
-def upload_dataset(ctx: ServiceContext, *, case_id: int, source: BinaryIO, file_name: str) -> DatasetDetail:
+def upload_dataset(ctx: ServiceContext, *, case_id: int, source: Readable, file_name: str) -> DatasetDetail:
     """Store an uploaded replication file as the case's next dataset version.
 
     Parameters

@@ -7,7 +7,7 @@ added here once, for every service.
 
 from __future__ import annotations
 
-from sqlalchemy import select
+from sqlalchemy import select, update
 from sqlalchemy.orm import Session
 
 from app.services.errors import NotFound
@@ -57,10 +57,16 @@ def latest_claim_versions(session: Session, case_id: int) -> dict[int, int]:
 
 
 def record_event(session: Session, case: Case, *, kind: str, message: str) -> None:
-    """Add a line to the case's history and mark the case as active now."""
+    """Add a line to the case's history, mark the case as active now and raise its revision."""
     now = utc_now()
     session.add(Event(case_id=case.id, at=now, kind=kind, message=message))
     case.last_activity = now
+    bump_revision(session, case.id)
+
+
+def bump_revision(session: Session, case_id: int) -> None:
+    """Raise the case's revision by one, atomically in SQL (two writers never read the same value)."""
+    session.execute(update(Case).where(Case.id == case_id).values(revision=Case.revision + 1))
 
 
 def case_info(case: Case) -> CaseInfo:

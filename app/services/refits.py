@@ -23,6 +23,7 @@ from app.services import checklists
 from app.services.context import ServiceContext
 from app.services.datasets import load_frame
 from app.services.records import (
+    bump_revision,
     case_info,
     load_case,
     load_claim,
@@ -116,6 +117,7 @@ def run_refit(ctx: ServiceContext, refit_id: int) -> None:
         row.state = "running"
         row.started_at = utc_now()
         row.stage = STAGES[1]
+        bump_revision(session, row.case_id)
         dataset = row.dataset
         spec_data = row.claim.spec
         data_file_name = dataset.original_name
@@ -147,6 +149,7 @@ def resume_unfinished(ctx: ServiceContext) -> list[int]:
         for row in rows:
             row.state = "waiting"
             row.stage = STAGES[0]
+            bump_revision(session, row.case_id)
         refit_ids = [row.id for row in rows]
     for refit_id in refit_ids:
         ctx.jobs.submit(run_refit, ctx, refit_id)
@@ -155,7 +158,9 @@ def resume_unfinished(ctx: ServiceContext) -> list[int]:
 
 def _set_stage(ctx: ServiceContext, refit_id: int, stage: str) -> None:
     with ctx.transaction() as session:
-        session.get_one(Refit, refit_id).stage = stage
+        row = session.get_one(Refit, refit_id)
+        row.stage = stage
+        bump_revision(session, row.case_id)
 
 
 def _finish(

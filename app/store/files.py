@@ -5,6 +5,9 @@ Writes are atomic: the bytes go to a temporary file in the store's own
 only then renamed to ``<first two hex digits>/<sha256>``. A crash or an
 oversized upload leaves no file under a hash name. The original file name is
 metadata kept by the caller, never part of the path.
+
+The fsync runs on a helper thread while the caller reads and checks the
+received file; :meth:`FileStore.keep` waits for it before the rename.
 """
 
 from __future__ import annotations
@@ -13,10 +16,11 @@ import hashlib
 import os
 import tempfile
 from collections.abc import Iterator
+from concurrent.futures import Future, ThreadPoolExecutor
 from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
-from typing import BinaryIO
+from typing import Protocol
 
 CHUNK_BYTES = 1 << 20
 
@@ -29,13 +33,20 @@ class FileExceedsLimit(Exception):
         self.limit = limit
 
 
+class Readable(Protocol):
+    """Anything with a binary ``read(size)`` that returns ``b""`` at the end."""
+
+    def read(self, size: int = -1, /) -> bytes: ...
+
+
 @dataclass(frozen=True)
 class IncomingFile:
-    """A fully written, fsynced temporary file that is not yet in the store."""
+    """A fully written temporary file that is not yet in the store; ``synced`` ends when it is on disk."""
 
     path: Path
     sha256: str
     size_bytes: int
+    synced: Future[None]
 
 
 class FileStore:
@@ -45,6 +56,11 @@ class FileStore:
         self.root = root
         self.incoming_dir = root / "incoming"
         self.incoming_dir.mkdir(parents=True, exist_ok=True)
+        self._syncer = ThreadPoolExecutor(max_workers=1, thread_name_prefix="secondstage-fsync")
+
+    def close(self) -> None:
+        """Wait for pending fsyncs and stop the helper thread."""
+        self._syncer.shutdown(wait=True)
 
     def path_for(self, sha256: str) -> Path:
         """Where the file with this hash lives (it may not exist)."""
@@ -57,7 +73,7 @@ class FileStore:
         return self.path_for(sha256).is_file()
 
     @contextmanager
-    def receive(self, source: BinaryIO, *, limit: int, suffix: str = "") -> Iterator[IncomingFile]:
+    def receive(self, source: Readable, *, limit: int, suffix: str = "") -> Iterator[IncomingFile]:
         """Copy ``source`` into a temporary file while hashing it.
 
         The temporary file exists only inside the ``with`` block: call
@@ -72,6 +88,7 @@ class FileStore:
         """
         descriptor, name = tempfile.mkstemp(dir=self.incoming_dir, suffix=suffix)
         path = Path(name)
+        synced: Future[None] | None = None
         try:
             digest = hashlib.sha256()
             size = 0
@@ -82,10 +99,11 @@ class FileStore:
                         raise FileExceedsLimit(limit)
                     digest.update(chunk)
                     target.write(chunk)
-                target.flush()
-                os.fsync(target.fileno())
-            yield IncomingFile(path=path, sha256=digest.hexdigest(), size_bytes=size)
+            synced = self._syncer.submit(_fsync_file, path)
+            yield IncomingFile(path=path, sha256=digest.hexdigest(), size_bytes=size, synced=synced)
         finally:
+            if synced is not None:
+                synced.result()
             path.unlink(missing_ok=True)
 
     def keep(self, incoming: IncomingFile) -> Path:
@@ -94,6 +112,7 @@ class FileStore:
         if target.is_file():
             return target
         target.parent.mkdir(exist_ok=True)
+        incoming.synced.result()
         os.replace(incoming.path, target)
         _fsync_directory(target.parent)
         return target
@@ -101,6 +120,15 @@ class FileStore:
     def delete(self, sha256: str) -> None:
         """Remove a stored file, if present."""
         self.path_for(sha256).unlink(missing_ok=True)
+
+
+def _fsync_file(path: Path) -> None:
+    """Force a written file's bytes to disk."""
+    descriptor = os.open(path, os.O_RDONLY)
+    try:
+        os.fsync(descriptor)
+    finally:
+        os.close(descriptor)
 
 
 def _fsync_directory(folder: Path) -> None:

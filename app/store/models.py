@@ -94,6 +94,8 @@ class Case(Base):
     notes: Mapped[str] = mapped_column(Text, default="")
     created_at: Mapped[datetime] = mapped_column(default=utc_now)
     last_activity: Mapped[datetime] = mapped_column(default=utc_now)
+    revision: Mapped[int] = mapped_column(Integer, default=0, server_default="0")
+    """Raised by one on every change to anything the case holds (pages cached per revision)."""
 
     datasets: Mapped[list[Dataset]] = relationship(
         back_populates="case", cascade="all, delete-orphan", passive_deletes=True, order_by="Dataset.version"

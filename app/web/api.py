@@ -11,9 +11,7 @@ from typing import Annotated, Any, Literal
 from fastapi import APIRouter, Depends, Query, Request, status
 from fastapi.responses import Response
 from pydantic import BaseModel, ConfigDict, Field
-from starlette.concurrency import run_in_threadpool
 
-from app.errors import DataFileError
 from app.services import cases, checklists, claims, comparison, datasets, refits
 from app.services.context import ServiceContext
 from app.services.views import (
@@ -30,7 +28,8 @@ from app.services.views import (
     RefitResults,
 )
 from app.web.errors import ErrorBody
-from app.web.rendering import check_declared_size, services
+from app.web.rendering import services
+from app.web.uploads import receive_dataset
 
 ERROR_RESPONSES: dict[int | str, dict[str, Any]] = {
     404: {"model": ErrorBody, "description": "No such case, or nothing of that id in this case"},
@@ -128,15 +127,7 @@ def delete_case(ctx: Services, case_id: int) -> Response:
 )
 async def upload_dataset(request: Request, case_id: int) -> DatasetDetail:
     """Upload a replication file (CSV/TSV, Stata, SPSS, SAS, Excel, Parquet) as the next data version."""
-    ctx: ServiceContext = request.app.state.services
-    check_declared_size(request, limit=ctx.settings.max_upload_bytes)
-    async with request.form(max_files=1, max_fields=10) as form:
-        upload = form.get("file")
-        if upload is None or isinstance(upload, str) or not upload.filename:
-            raise DataFileError("send the data file as the multipart field 'file', with its file name")
-        return await run_in_threadpool(
-            datasets.upload_dataset, ctx, case_id=case_id, source=upload.file, file_name=upload.filename
-        )
+    return await receive_dataset(request, request.app.state.services, case_id=case_id)
 
 
 @router.get("/cases/{case_id}/datasets/{dataset_id}", name="api_get_dataset")

@@ -17,7 +17,8 @@ from app.settings import Settings
 from app.web import api, pages
 from app.web.errors import install_error_handlers
 from app.web.figures import SvgCache
-from app.web.templating import build_templates
+from app.web.page_cache import PageCache
+from app.web.templating import RoutePaths, build_templates
 
 STATIC_DIR = Path(__file__).resolve().parents[2] / "static"
 
@@ -58,11 +59,13 @@ def create_app(settings: Settings) -> FastAPI:
     app.state.settings = settings
     app.state.templates = build_templates()
     app.state.figures = SvgCache()
+    app.state.pages = PageCache(size=settings.page_cache_entries)
     app.mount("/static", StaticFiles(directory=STATIC_DIR), name="static")
     app.include_router(api.router)
     app.include_router(pages.router)
     install_error_handlers(app)
     app.add_middleware(SecurityHeaders)
+    app.state.paths = RoutePaths(app)
     return app
 
 

@@ -20,8 +20,16 @@ from app.services.errors import FileTooLarge, InvalidInput, NotFound, Problem
 from app.services.views import ClaimEditor
 from app.web import figures, presenters
 from app.web.claim_form import ClaimForm
-from app.web.rendering import check_declared_size, form_lists, is_htmx, render, see_other, services
+from app.web.rendering import (
+    case_page_cached,
+    form_lists,
+    is_htmx,
+    render,
+    see_other,
+    services,
+)
 from app.web.templating import dom_id
+from app.web.uploads import receive_dataset
 
 router = APIRouter(include_in_schema=False)
 Services = Annotated[ServiceContext, Depends(services)]
@@ -70,10 +78,13 @@ def create_case_form(
 
 
 @router.get("/cases/{case_id}", name="case_page")
-def case_page(request: Request, ctx: Services, case_id: int) -> HTMLResponse:
-    detail = cases.get_case(ctx, case_id=case_id)
-    twin = str(request.app.url_path_for("api_get_case", case_id=str(case_id)))
-    return render(request, "case.html", json_twin=twin, page=detail)
+def case_page(request: Request, ctx: Services, case_id: int) -> Response:
+    def build() -> HTMLResponse:
+        detail = cases.get_case(ctx, case_id=case_id)
+        twin = str(request.app.url_path_for("api_get_case", case_id=str(case_id)))
+        return render(request, "case.html", json_twin=twin, page=detail)
+
+    return case_page_cached(request, ctx, case_id=case_id, render=build)
 
 
 @router.get("/cases/{case_id}/delete", name="delete_case_page")
@@ -103,14 +114,7 @@ def upload_page(request: Request, ctx: Services, case_id: int) -> HTMLResponse:
 async def upload_form(request: Request, case_id: int) -> Response:
     ctx: ServiceContext = request.app.state.services
     try:
-        check_declared_size(request, limit=ctx.settings.max_upload_bytes)
-        async with request.form(max_files=1, max_fields=10) as form:
-            upload = form.get("file")
-            if upload is None or isinstance(upload, str) or not upload.filename:
-                raise DataFileError("choose a data file to upload")
-            uploaded = await run_in_threadpool(
-                datasets.upload_dataset, ctx, case_id=case_id, source=upload.file, file_name=upload.filename
-            )
+        uploaded = await receive_dataset(request, ctx, case_id=case_id)
     except DataFileError as error:
         detail = await run_in_threadpool(cases.get_case, ctx, case_id=case_id)
         status = 413 if isinstance(error, FileTooLarge) else 422
@@ -261,25 +265,28 @@ def start_refit_form(
 
 
 @router.get("/cases/{case_id}/refits/{refit_id}", name="refit_page")
-def refit_page(request: Request, ctx: Services, case_id: int, refit_id: int) -> HTMLResponse:
-    results = refits.get_refit(ctx, case_id=case_id, refit_id=refit_id)
-    twin = str(request.app.url_path_for("api_get_refit", case_id=str(case_id), refit_id=str(refit_id)))
-    findings = results.findings or {}
-    estimate_panels = figures.estimate_panels(findings)
-    first_stage_panels = figures.first_stage_panels(findings)
-    return render(
-        request,
-        "refit.html",
-        json_twin=twin,
-        page=results,
-        stages=refits.STAGES,
-        estimate_tables=presenters.estimate_tables(findings),
-        estimate_panels=estimate_panels,
-        estimate_alt=figures.describe_panels(estimate_panels),
-        first_stage_panels=first_stage_panels,
-        first_stage_alt=figures.describe_panels(first_stage_panels),
-        diagnostic_groups=presenters.group_diagnostics(findings.get("diagnostics") or {}),
-    )
+def refit_page(request: Request, ctx: Services, case_id: int, refit_id: int) -> Response:
+    def build() -> HTMLResponse:
+        results = refits.get_refit(ctx, case_id=case_id, refit_id=refit_id)
+        twin = str(request.app.url_path_for("api_get_refit", case_id=str(case_id), refit_id=str(refit_id)))
+        findings = results.findings or {}
+        estimate_panels = figures.estimate_panels(findings)
+        first_stage_panels = figures.first_stage_panels(findings)
+        return render(
+            request,
+            "refit.html",
+            json_twin=twin,
+            page=results,
+            stages=refits.STAGES,
+            estimate_tables=presenters.estimate_tables(findings),
+            estimate_panels=estimate_panels,
+            estimate_alt=figures.describe_panels(estimate_panels),
+            first_stage_panels=first_stage_panels,
+            first_stage_alt=figures.describe_panels(first_stage_panels),
+            diagnostic_groups=presenters.group_diagnostics(findings.get("diagnostics") or {}),
+        )
+
+    return case_page_cached(request, ctx, case_id=case_id, render=build)
 
 
 @router.get("/cases/{case_id}/refits/{refit_id}/progress", name="refit_progress")
@@ -311,10 +318,13 @@ def refit_figure(
 
 
 @router.get("/cases/{case_id}/refits/{refit_id}/checklist", name="checklist_page")
-def checklist_page(request: Request, ctx: Services, case_id: int, refit_id: int) -> HTMLResponse:
-    view = checklists.get_checklist(ctx, case_id=case_id, refit_id=refit_id)
-    twin = str(request.app.url_path_for("api_get_checklist", case_id=str(case_id), refit_id=str(refit_id)))
-    return render(request, "checklist.html", json_twin=twin, page=view)
+def checklist_page(request: Request, ctx: Services, case_id: int, refit_id: int) -> Response:
+    def build() -> HTMLResponse:
+        view = checklists.get_checklist(ctx, case_id=case_id, refit_id=refit_id)
+        twin = str(request.app.url_path_for("api_get_checklist", case_id=str(case_id), refit_id=str(refit_id)))
+        return render(request, "checklist.html", json_twin=twin, page=view)
+
+    return case_page_cached(request, ctx, case_id=case_id, render=build)
 
 
 @router.post("/cases/{case_id}/refits/{refit_id}/checklist/{item_id}", name="judgement_form")

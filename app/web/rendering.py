@@ -2,12 +2,14 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from typing import Any
 
 from fastapi import Request
-from fastapi.responses import HTMLResponse, RedirectResponse
+from fastapi.responses import HTMLResponse, RedirectResponse, Response
 from starlette.datastructures import FormData
 
+from app.services import cases
 from app.services.context import ServiceContext
 from app.services.datasets import format_bytes
 from app.services.errors import FileTooLarge
@@ -34,6 +36,17 @@ def render(
     return templates.TemplateResponse(
         request, template, {"json_twin": json_twin, **context}, status_code=status_code
     )
+
+
+def case_page_cached(request: Request, ctx: ServiceContext, *, case_id: int, render: Callable[[], Response]) -> Response:
+    """A page of the case from the page cache, or freshly rendered when the case changed since.
+
+    Reading the revision also answers :class:`NotFound` for a case that does not
+    exist (or no longer does) before any cached page could be served.
+    """
+    revision = cases.case_revision(ctx, case_id=case_id)
+    key = (request.url.path, request.url.query, revision)
+    return request.app.state.pages.get_or_render(key, render)
 
 
 def see_other(path: str) -> RedirectResponse:

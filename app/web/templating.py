@@ -12,9 +12,11 @@ from __future__ import annotations
 
 from datetime import UTC, datetime
 from pathlib import Path
+import functools
 from typing import Any
 
 from jinja2 import ChainableUndefined, Environment, FileSystemLoader, pass_context, select_autoescape
+from starlette.applications import Starlette
 from starlette.templating import Jinja2Templates
 
 from app.estimation.inference import CONFIDENCE_LEVEL
@@ -33,6 +35,7 @@ def build_templates() -> Jinja2Templates:
         undefined=ChainableUndefined,
         trim_blocks=True,
         lstrip_blocks=True,
+        auto_reload=False,
     )
     environment.filters.update(
         number=number,
@@ -55,7 +58,26 @@ def build_templates() -> Jinja2Templates:
 @pass_context
 def path(context: Any, name: str, /, **params: Any) -> str:
     """The path of a named route (never a full URL, so pages only ever point at this server)."""
-    return str(context["request"].app.url_path_for(name, **{key: str(value) for key, value in params.items()}))
+    return context["request"].app.state.paths(name, **params)
+
+
+class RoutePaths:
+    """Paths of the app's named routes, remembered once built.
+
+    ``url_path_for`` walks the whole route table on every call, and a checklist
+    page builds a hundred links; the app's routes never change after start-up,
+    so each (route, parameters) path is computed once.
+    """
+
+    def __init__(self, app: Starlette, *, size: int = 8192) -> None:
+        @functools.lru_cache(maxsize=size)
+        def build(name: str, params: tuple[tuple[str, str], ...]) -> str:
+            return str(app.url_path_for(name, **dict(params)))
+
+        self._build = build
+
+    def __call__(self, name: str, /, **params: Any) -> str:
+        return self._build(name, tuple(sorted((key, str(value)) for key, value in params.items())))
 
 
 def number(value: object, digits: int = formatting.SIGNIFICANT_DIGITS) -> str:

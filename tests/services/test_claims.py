@@ -34,7 +34,7 @@ def test_a_claim_is_stored_as_its_validated_spec(
     assert detail.claim.spec_sha256 == claim_sha256(parsed)
     assert detail.claim.title == demo_spec["title"]
     assert detail.claim.drafted_on_id == dataset_id
-    assert detail.claim.spec["claimed"]["estimate"] == "-2.85"
+    assert detail.claim.spec["claimed"]["estimate"] == demo_spec["claimed"]["estimate"]
 
 
 PROBLEMS = {

@@ -2,10 +2,14 @@
 
 from __future__ import annotations
 
+from pathlib import Path
+
+import pytest
 from alembic.autogenerate import compare_metadata
 from alembic.runtime.migration import MigrationContext
 from sqlalchemy import inspect
 
+from app.cli.main import main
 from app.store import migrate
 from app.store.database import Database
 from app.store.models import Base
@@ -45,3 +49,32 @@ def test_foreign_keys_are_enforced_again_after_a_migration(migrated: Database) -
 def test_upgrading_twice_changes_nothing(migrated: Database) -> None:
     migrate.upgrade(migrated)
     assert migrate.current_revision(migrated) == migrate.head_revision()
+
+
+def test_upgrading_keeps_existing_rows(database: Database) -> None:
+    migrate.upgrade(database, revision="0001")
+    with database.engine.begin() as connection:
+        connection.exec_driver_sql(
+            "INSERT INTO cases (title, reference, notes, created_at, last_activity) "
+            "VALUES ('Kept', 'MS-1', '', '2026-01-01 00:00:00', '2026-01-01 00:00:00')"
+        )
+        connection.exec_driver_sql(
+            "INSERT INTO events (case_id, at, kind, message) VALUES (1, '2026-01-01 00:00:00', 'case_opened', 'x')"
+        )
+
+    migrate.upgrade(database)
+
+    with database.engine.connect() as connection:
+        assert connection.exec_driver_sql("SELECT title, revision FROM cases").all() == [("Kept", 0)]
+        assert connection.exec_driver_sql("SELECT count(*) FROM events").scalar() == 1
+
+
+def test_the_db_command_creates_and_then_reports_an_up_to_date_database(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    data_dir = tmp_path / "server"
+    assert main(["db", "upgrade", "--data-dir", str(data_dir)]) == 0
+    assert f"from schema none to {migrate.head_revision()}" in capsys.readouterr().out
+    assert main(["db", "upgrade", "--data-dir", str(data_dir)]) == 0
+    assert "up to date" in capsys.readouterr().out
+    assert (data_dir / "secondstage.sqlite3").is_file()

@@ -8,6 +8,7 @@ from typing import Any
 import pytest
 from fastapi.testclient import TestClient
 
+from app.web.templating import number
 from tests.web.conftest import Reviewed
 
 TWIN = re.compile(r'<a class="twin" href="([^"]+)"')
@@ -57,14 +58,16 @@ def test_results_and_checklist_pages_carry_the_cautions(client: TestClient, revi
         assert "stays on this server" in text
 
 
-def test_the_results_page_shows_the_manuscript_beside_every_estimator(client: TestClient, reviewed: Reviewed) -> None:
+def test_the_results_page_shows_the_manuscript_beside_every_estimator(
+    client: TestClient, reviewed: Reviewed, demo_spec: dict[str, Any]
+) -> None:
     text = client.get(reviewed.refit).text
     findings = client.get(f"/api/v1{reviewed.refit}").json()["findings"]
-    assert "Manuscript (2SLS)" in text and ">-2.85<" in text
+    assert "Manuscript (2SLS)" in text and f">{demo_spec['claimed']['estimate']}<" in text
     for estimator in findings["estimators"]:
         assert estimator["name"] in text
     tsls = next(row for row in findings["estimates"] if row["estimator"] == "2sls" and row["term"] == "daily_steps_k")
-    assert f">{tsls['estimate']:.4g}<" in text
+    assert f">{number(tsls['estimate'])}<" in text
     assert 'alt="Effect of daily_steps_k on systolic_bp.' in text
     assert "First-stage F for daily_steps_k" in text
 

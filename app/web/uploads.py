@@ -1,0 +1,195 @@
+"""Streaming a multipart upload straight into the file store.
+
+The request body is parsed as it arrives and the bytes of the ``file`` field
+are handed, chunk by chunk, to :func:`app.services.datasets.upload_dataset`,
+which hashes and writes them into the data directory's own ``incoming``
+folder. The upload is therefore written once, never spooled to the system's
+temporary folder (it stays inside the data directory), and a file over the
+limit is refused while it arrives.
+
+The service runs on a worker thread and reads through :class:`MultipartUpload`,
+which fetches the next block of the body from the event loop.
+"""
+
+from __future__ import annotations
+
+from collections import deque
+from collections.abc import AsyncIterator
+
+import anyio.from_thread
+from fastapi import Request
+from python_multipart.multipart import MultipartParser, parse_options_header
+from starlette.concurrency import run_in_threadpool
+
+from app.errors import DataFileError
+from app.services import datasets
+from app.services.context import ServiceContext
+from app.services.views import DatasetDetail
+from app.web.rendering import check_declared_size
+
+FILE_FIELD = "file"
+BLOCK_BYTES = 1 << 20
+"""Body bytes gathered on the event loop per hand-over to the worker thread."""
+MAX_FIELD_BYTES = 64 * 1024
+"""Other form fields (not the file) are small; longer ones are refused."""
+
+
+async def receive_dataset(request: Request, ctx: ServiceContext, *, case_id: int) -> DatasetDetail:
+    """Store the request's ``file`` field as the case's next data version.
+
+    Raises
+    ------
+    DataFileError
+        The request is not a multipart form with a ``file`` field, is cut
+        short, or the file cannot be read as a table (the service's message).
+    """
+    check_declared_size(request, limit=ctx.settings.max_upload_bytes)
+    upload = MultipartUpload.from_request(request)
+
+    def store() -> DatasetDetail:
+        file_name = upload.open_file()
+        return datasets.upload_dataset(ctx, case_id=case_id, source=upload, file_name=file_name)
+
+    stored = await run_in_threadpool(store)
+    await upload.drain()
+    return stored
+
+
+class MultipartUpload:
+    """The ``file`` field of a multipart/form-data body as a readable binary stream.
+
+    Use from a worker thread: :meth:`open_file` reads up to the file's own
+    headers and returns its name; :meth:`read` then returns its bytes and
+    ``b""`` at its end. Other fields are kept in :attr:`fields`.
+    """
+
+    def __init__(self, body: AsyncIterator[bytes], *, boundary: bytes) -> None:
+        self._body = body
+        self._body_done = False
+        self._parser = MultipartParser(
+            boundary,
+            callbacks={
+                "on_part_begin": self._part_begin,
+                "on_header_field": self._header_field,
+                "on_header_value": self._header_value,
+                "on_header_end": self._header_end,
+                "on_headers_finished": self._headers_finished,
+                "on_part_data": self._part_data,
+                "on_part_end": self._part_end,
+            },
+        )
+        self._header_name = bytearray()
+        self._header_value = bytearray()
+        self._headers: dict[bytes, bytes] = {}
+        self._part: str | None = None
+        self._field_value = bytearray()
+        self._chunks: deque[bytes] = deque()
+        self.file_name: str | None = None
+        self.file_finished = False
+        self.fields: dict[str, str] = {}
+
+    @classmethod
+    def from_request(cls, request: Request) -> MultipartUpload:
+        """The upload in a request's body; the content type must be multipart/form-data with a boundary."""
+        kind, options = parse_options_header(request.headers.get("content-type", ""))
+        boundary = options.get(b"boundary")
+        if kind != b"multipart/form-data" or not boundary:
+            raise DataFileError(
+                f"choose a data file to upload (it is sent as a multipart/form-data form with the field '{FILE_FIELD}')"
+            )
+        return cls(request.stream(), boundary=boundary)
+
+    # -- worker thread side --------------------------------------------------------
+
+    def open_file(self) -> str:
+        """Read the body up to the start of the file's bytes; return the file's name."""
+        while self.file_name is None:
+            if not self._feed(anyio.from_thread.run(self._next_block)):
+                raise DataFileError(f"choose a data file to upload (the form has no file in the field '{FILE_FIELD}')")
+        return self.file_name
+
+    def read(self, size: int = -1, /) -> bytes:
+        """The file's next bytes (at most ``size``, all that have arrived when negative); ``b""`` at its end."""
+        while not self._chunks and not self.file_finished:
+            if not self._feed(anyio.from_thread.run(self._next_block)):
+                raise DataFileError("the upload was cut off before the end of the file; try again")
+        if not self._chunks:
+            return b""
+        chunk = self._chunks.popleft()
+        if 0 <= size < len(chunk):
+            self._chunks.appendleft(chunk[size:])
+            chunk = chunk[:size]
+        return chunk
+
+    # -- event loop side -------------------------------------------------------------
+
+    async def drain(self) -> None:
+        """Read what is left of the body after the file (the closing boundary, later fields)."""
+        while self._feed(await self._next_block()):
+            pass
+
+    async def _next_block(self) -> bytes:
+        """The next ~1 MiB of the body, or ``b""`` at its end."""
+        parts: list[bytes] = []
+        gathered = 0
+        while gathered < BLOCK_BYTES and not self._body_done:
+            try:
+                part = await self._body.__anext__()
+            except StopAsyncIteration:
+                self._body_done = True
+                break
+            parts.append(part)
+            gathered += len(part)
+        return b"".join(parts)
+
+    # -- parsing ---------------------------------------------------------------------
+
+    def _feed(self, block: bytes) -> bool:
+        if not block:
+            return False
+        self._parser.write(block)
+        return True
+
+    def _part_begin(self) -> None:
+        self._headers = {}
+        self._part = None
+        self._field_value = bytearray()
+
+    def _header_field(self, data: bytes, start: int, end: int) -> None:
+        self._header_name += data[start:end]
+
+    def _header_value(self, data: bytes, start: int, end: int) -> None:
+        self._header_value += data[start:end]
+
+    def _header_end(self) -> None:
+        self._headers[bytes(self._header_name).lower()] = bytes(self._header_value)
+        self._header_name = bytearray()
+        self._header_value = bytearray()
+
+    def _headers_finished(self) -> None:
+        _, options = parse_options_header(self._headers.get(b"content-disposition", b""))
+        name = options.get(b"name", b"").decode("utf-8", "replace")
+        file_name = options.get(b"filename")
+        if name == FILE_FIELD and file_name is not None and self.file_name is None:
+            self._part = "file"
+            self.file_name = file_name.decode("utf-8", "replace")
+        elif file_name is not None:
+            self._part = None  # a file in another field, or a second file: skipped
+        else:
+            self._part = name
+
+    def _part_data(self, data: bytes, start: int, end: int) -> None:
+        if self._part == "file":
+            self._chunks.append(bytes(data[start:end]))
+            return
+        if self._part is None:
+            return
+        self._field_value += data[start:end]
+        if len(self._field_value) > MAX_FIELD_BYTES:
+            raise DataFileError(f"the form field '{self._part}' is longer than {MAX_FIELD_BYTES} bytes")
+
+    def _part_end(self) -> None:
+        if self._part == "file":
+            self.file_finished = True
+        elif self._part:
+            self.fields[self._part] = self._field_value.decode("utf-8", "replace")

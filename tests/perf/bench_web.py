@@ -1,0 +1,260 @@
+"""Benchmark: page latency under load, and uploading a 100 MB CSV against pyarrow's CSV reader.
+
+Part 1, pages. Starts ``secondstage serve --demo`` on a free loopback port with
+a temporary data directory, then runs 20 concurrent clients (one keep-alive
+connection each, as asyncio tasks speaking plain HTTP/1.1). Every client requests the demo's case page,
+results page and checklist page in turn, ``--rounds`` times; the run stops by
+itself after that or after ``--max-seconds``. It prints the median and 95th
+percentile latency of each page. Targets: median < 50 ms, p95 < 150 ms.
+Pages are kept per case revision, so it also prints how long each page takes
+right after the case changed, when it is rendered afresh.
+
+Part 2, upload. Writes a CSV of about ``--megabytes`` MB (seeded simulation:
+an id, integer and binary columns, floats), times pyarrow's ``read_csv`` on it
+(best of three), then times uploading the same file to the running server
+through the JSON API until the profiled data version comes back (best of
+three). It prints the ratio upload / pyarrow (target: <= 2), and how much of
+the upload the data layer's reader and profiler take alone on the same file.
+
+Run: python tests/perf/bench_web.py [--clients 20] [--rounds 25] [--megabytes 100]
+"""
+
+from __future__ import annotations
+
+import argparse
+import asyncio
+import os
+import socket
+import statistics
+import subprocess
+import sys
+import tempfile
+import time
+from collections.abc import Callable
+from pathlib import Path
+
+import httpx
+import numpy as np
+import pandas as pd
+import pyarrow.csv
+
+from app.data.profile import profile_frame
+from app.data.readers import read_table
+
+REPOSITORY = Path(__file__).resolve().parents[2]
+
+
+def free_port() -> int:
+    with socket.socket() as probe:
+        probe.bind(("127.0.0.1", 0))
+        return int(probe.getsockname()[1])
+
+
+def start_server(data_dir: Path) -> tuple[subprocess.Popen[bytes], str]:
+    """``secondstage serve --demo`` on a free loopback port; returns the process and its base URL."""
+    port = free_port()
+    command = [sys.executable, "-m", "app.cli.main", "serve", "--demo", "--port", str(port), "--data-dir", str(data_dir)]
+    process = subprocess.Popen(command, cwd=REPOSITORY, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    base = f"http://127.0.0.1:{port}"
+    deadline = time.monotonic() + 120
+    while time.monotonic() < deadline:
+        try:
+            if httpx.get(base + "/", timeout=1).status_code == 200:
+                return process, base
+        except httpx.TransportError:
+            time.sleep(0.2)
+        if process.poll() is not None:
+            break
+    process.terminate()
+    raise SystemExit("the server did not start")
+
+
+def demo_pages(base: str) -> dict[str, str]:
+    """The case, results and checklist pages of the first demo case."""
+    overview = httpx.get(base + "/api/v1/cases").json()
+    case = overview["cases"][0]
+    refit = case["latest_refit_id"]
+    return {
+        "case": f"/cases/{case['id']}",
+        "results": f"/cases/{case['id']}/refits/{refit}",
+        "checklist": f"/cases/{case['id']}/refits/{refit}/checklist",
+    }
+
+
+def load_test(base: str, pages: dict[str, str], *, clients: int, rounds: int, max_seconds: float) -> dict[str, list[float]]:
+    """Latencies in milliseconds per page, from ``clients`` concurrent keep-alive connections.
+
+    The clients are asyncio tasks speaking plain HTTP/1.1, so that the load
+    generator, which shares the machine with the server, spends as little CPU
+    as possible per request and does not queue requests itself.
+    """
+    return asyncio.run(_load(base, pages, clients=clients, rounds=rounds, max_seconds=max_seconds))
+
+
+async def _load(base: str, pages: dict[str, str], *, clients: int, rounds: int, max_seconds: float) -> dict[str, list[float]]:
+    host, port = base.removeprefix("http://").split(":")
+    latencies: dict[str, list[float]] = {name: [] for name in pages}
+    stop_at = time.monotonic() + max_seconds
+    connections = [await asyncio.open_connection(host, int(port)) for _ in range(clients)]
+
+    async def client(reader: asyncio.StreamReader, writer: asyncio.StreamWriter) -> None:
+        for _ in range(rounds):
+            for name, path in pages.items():
+                if time.monotonic() > stop_at:
+                    return
+                began = time.perf_counter()
+                writer.write(f"GET {path} HTTP/1.1\r\nHost: {host}\r\nAccept: text/html\r\n\r\n".encode())
+                status, body = await _read_response(reader)
+                latencies[name].append((time.perf_counter() - began) * 1000)
+                if status != 200 or b"</html>" not in body:
+                    raise SystemExit(f"{path} answered {status}")
+
+    try:
+        await asyncio.gather(*(client(reader, writer) for reader, writer in connections))
+    finally:
+        for _, writer in connections:
+            writer.close()
+    return latencies
+
+
+async def _read_response(reader: asyncio.StreamReader) -> tuple[int, bytes]:
+    """One HTTP/1.1 response: status and body (Content-Length or chunked)."""
+    head = await reader.readuntil(b"\r\n\r\n")
+    lines = head.decode("latin-1").split("\r\n")
+    status = int(lines[0].split()[1])
+    headers = {line.split(":", 1)[0].lower(): line.split(":", 1)[1].strip() for line in lines[1:] if ":" in line}
+    if "content-length" in headers:
+        return status, await reader.readexactly(int(headers["content-length"]))
+    body = bytearray()
+    while True:
+        size = int((await reader.readuntil(b"\r\n")).strip(), 16)
+        chunk = await reader.readexactly(size + 2)
+        if size == 0:
+            return status, bytes(body)
+        body += chunk[:-2]
+
+
+def first_views(base: str, pages: dict[str, str], *, repeat: int = 20) -> dict[str, list[float]]:
+    """Latency of each page right after the case changed (nothing cached), one client at a time.
+
+    Each repetition saves a reviewer's note through the API, which changes the
+    case, then requests every page once.
+    """
+    latencies: dict[str, list[float]] = {name: [] for name in pages}
+    with httpx.Client(base_url=base, timeout=30) as session:
+        checklist = session.get("/api/v1" + pages["checklist"]).json()
+        item = checklist["sections"][0]["items"][0]["id"]
+        for number in range(repeat):
+            session.put(f"/api/v1{pages['results']}/judgements/{item}", json={"standing": None, "note": f"note {number}"})
+            for name, path in pages.items():
+                began = time.perf_counter()
+                session.get(path).raise_for_status()
+                latencies[name].append((time.perf_counter() - began) * 1000)
+    return latencies
+
+
+def percentile(values: list[float], share: float) -> float:
+    ordered = sorted(values)
+    return ordered[min(len(ordered) - 1, int(round(share * (len(ordered) - 1))))]
+
+
+def write_csv(path: Path, *, megabytes: float, seed: int = 2026) -> None:
+    """A seeded table of ``megabytes`` MB (to within a row or so)."""
+    rows_per_mb = 1_000_000 / len(_table(np.random.default_rng(seed), 10_000).to_csv(index=False).encode()) * 10_000
+    _table(np.random.default_rng(seed), int(megabytes * rows_per_mb)).to_csv(path, index=False)
+
+
+def _table(rng: np.random.Generator, rows: int) -> pd.DataFrame:
+    """Columns of a typical replication file: an id, small integers, a binary, floats of several widths."""
+    return pd.DataFrame(
+        {
+            "person_id": np.arange(rows) + 100_000,
+            "age": rng.integers(18, 80, rows),
+            "treated": rng.integers(0, 2, rows),
+            "region": rng.integers(1, 40, rows),
+            "income": np.round(rng.lognormal(10, 0.6, rows), 2),
+            "hours": np.round(rng.normal(38, 6, rows), 1),
+            "score": rng.standard_normal(rows),
+            "distance_km": np.round(rng.gamma(2.0, 3.0, rows), 3),
+            "outcome": rng.standard_normal(rows),
+        }
+    )
+
+
+def best_of(repeat: int, work: Callable[[], object]) -> float:
+    times = []
+    for _ in range(repeat):
+        began = time.perf_counter()
+        work()
+        times.append(time.perf_counter() - began)
+    return min(times)
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
+    parser.add_argument("--clients", type=int, default=20)
+    parser.add_argument("--rounds", type=int, default=50, help="requests of each page per client")
+    parser.add_argument("--max-seconds", type=float, default=120.0, help="stop the load test after this long")
+    parser.add_argument("--megabytes", type=float, default=100.0)
+    parser.add_argument("--skip-upload", action="store_true")
+    arguments = parser.parse_args()
+
+    with tempfile.TemporaryDirectory(prefix="secondstage-bench-") as folder:
+        root = Path(folder)
+        process, base = start_server(root / "data")
+        try:
+            pages = demo_pages(base)
+            load_test(base, pages, clients=2, rounds=3, max_seconds=30)  # warm up caches and connections
+            began = time.perf_counter()
+            latencies = load_test(
+                base, pages, clients=arguments.clients, rounds=arguments.rounds, max_seconds=arguments.max_seconds
+            )
+            elapsed = time.perf_counter() - began
+            total = sum(len(values) for values in latencies.values())
+            print(
+                f"Pages with the demo loaded, {arguments.clients} concurrent clients on loopback, "
+                f"{os.cpu_count()} cores: {total} requests in {elapsed:.1f} s ({total / elapsed:.0f} per second)"
+            )
+            for name, values in latencies.items():
+                median, p95 = statistics.median(values), percentile(values, 0.95)
+                verdict = "meets" if median < 50 and p95 < 150 else "MISSES"
+                print(f"  {name:<10} n={len(values):>4}  median {median:6.1f} ms  p95 {p95:6.1f} ms  ({verdict} 50/150 ms)")
+            print("First view after a change (rendered afresh, one client):")
+            for name, values in first_views(base, pages).items():
+                print(f"  {name:<10} n={len(values):>4}  median {statistics.median(values):6.1f} ms  max {max(values):6.1f} ms")
+
+            if not arguments.skip_upload:
+                csv_path = root / "large.csv"
+                write_csv(csv_path, megabytes=arguments.megabytes)
+                size = csv_path.stat().st_size
+                reference = best_of(3, lambda: pyarrow.csv.read_csv(csv_path))
+                case = httpx.post(base + "/api/v1/cases", json={"title": "Upload benchmark"}).json()["case"]["id"]
+
+                def upload() -> None:
+                    with httpx.Client(base_url=base, timeout=600) as session, csv_path.open("rb") as handle:
+                        response = session.post(
+                            f"/api/v1/cases/{case}/datasets", files={"file": ("large.csv", handle, "text/csv")}
+                        )
+                    if response.status_code != 201:
+                        raise SystemExit(f"upload answered {response.status_code}: {response.text[:300]}")
+
+                uploaded = best_of(3, upload)
+                reading = best_of(3, lambda: read_table(csv_path, name="large.csv"))
+                frame = read_table(csv_path, name="large.csv")
+                profiling = best_of(3, lambda: profile_frame(frame))
+                print(f"Upload and profile of a {size / 1e6:.0f} MB CSV ({size:,} bytes), best of 3 each:")
+                print(f"  pyarrow.csv.read_csv (reference)     {reference:6.2f} s")
+                print(f"  upload + profile through the API     {uploaded:6.2f} s  ratio {uploaded / reference:.2f} "
+                      f"({'meets' if uploaded / reference <= 2 else 'MISSES'} the target of 2)")
+                print("  of which, measured alone in this process:")
+                print(f"    app.data.readers.read_table        {reading:6.2f} s  ratio {reading / reference:.2f}")
+                print(f"    app.data.profile.profile_frame     {profiling:6.2f} s  ratio {profiling / reference:.2f}")
+                rest = uploaded - reading - profiling
+                print(f"    the rest (transfer, hash, write, store, respond)  {rest:6.2f} s  ratio {rest / reference:.2f}")
+        finally:
+            process.terminate()
+            process.wait(timeout=60)
+
+
+if __name__ == "__main__":
+    main()
