@@ -176,6 +176,12 @@ class ClusterSums:
             grams[g] = block.T @ block
         return grams
 
+    def cross_products(self) -> np.ndarray:
+        """Per-cluster cross-products ``A_g'A_g`` (``G x width x width``), computed once."""
+        if self._grams is None:
+            self._grams = self._cluster_grams()
+        return self._grams
+
     def scores(self, vector: np.ndarray) -> np.ndarray:
         """``G x d`` matrix of cluster score sums for the residual ``A vector``."""
         if self._grams is not None:

@@ -22,6 +22,7 @@ from app.estimation.first_stage import first_stages, reduced_form
 from app.estimation.fits import LinearFit
 from app.estimation.gmm import GmmFit, two_step_gmm
 from app.estimation.inference import coefficient_rows
+from app.estimation.instrument_diagnostics import INSTRUMENT_DIAGNOSTIC_KEYS, instrument_diagnostics
 from app.estimation.kclass import fuller_kappa, kclass, liml_kappa
 from app.estimation.linalg import SingularMatrixError
 from app.estimation.mediation import ESTIMATORS as MEDIATION_ESTIMATORS
@@ -99,7 +100,7 @@ def refit_instrumental(frame: pd.DataFrame, spec: ClaimSpec, provenance: dict[st
     terms = [*design.endogenous, *design.exogenous]
     fitted = fit_estimators(moments, variance, terms=terms)
     fits = fitted.fits
-    diagnostics = iv_diagnostics(moments, variance, fits=fits, gmm=fitted.gmm, design=design)
+    diagnostics = iv_diagnostics(moments, variance, fits=fits, gmm=fitted.gmm, design=design, frame=frame, spec=spec)
     diagnostics.update(
         sensitivity_diagnostics(
             moments,
@@ -177,8 +178,10 @@ def iv_diagnostics(
     fits: dict[str, LinearFit],
     gmm: GmmFit | None,
     design: DesignMatrices,
+    frame: pd.DataFrame,
+    spec: ClaimSpec,
 ) -> dict[str, Any]:
-    """First stage, reduced form, over-identification and endogeneity tests."""
+    """First stage, reduced form, over-identification, endogeneity and instrument diagnostics."""
     if moments.layout.n_instr == 0:
         reason = "the claim names no instruments: it is a plain regression, so only OLS applies"
         return {key: TestResult.not_applicable(key.replace("_", " "), reason) for key in IV_DIAGNOSTIC_KEYS}
@@ -190,6 +193,9 @@ def iv_diagnostics(
     diagnostics.update(overidentification_tests(moments, variance, tsls=fits["2sls"], gmm=gmm))
     diagnostics.update(
         endogeneity_tests(moments, variance, ols=fits["ols"], tsls=fits["2sls"], names=design.endogenous)
+    )
+    diagnostics.update(
+        instrument_diagnostics(moments, variance, fits=fits, gmm=gmm, design=design, frame=frame, spec=spec)
     )
     return diagnostics
 
@@ -204,6 +210,7 @@ IV_DIAGNOSTIC_KEYS = (
     "wu_hausman",
     "control_function",
     "residual_correlation",
+    *INSTRUMENT_DIAGNOSTIC_KEYS,
 )
 
 
