@@ -10,6 +10,7 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass
+from datetime import timedelta
 from typing import Any, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator
@@ -43,6 +44,9 @@ REPRODUCTION_BY_STANDING = {
 """Reproduction status from the most pressing effective standing of the reproduction items."""
 
 MAX_NOTE_LENGTH = 20_000
+
+JUDGEMENT_EVENT_MERGE = timedelta(minutes=15)
+"""Saves of the same item within this time make one line of the case's history."""
 
 
 class JudgementFields(BaseModel):
@@ -180,6 +184,7 @@ def save_judgement(
             row.case,
             kind="judgement_saved",
             message=f"Refit {refit_id}: {'judgement cleared' if cleared else 'judgement saved'} on '{item.item}'",
+            merge_within=JUDGEMENT_EVENT_MERGE,
         )
         return JudgementSaved(
             item=item_data(checklist.item(item_id)),

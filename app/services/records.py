@@ -7,6 +7,8 @@ added here once, for every service.
 
 from __future__ import annotations
 
+from datetime import timedelta
+
 from sqlalchemy import select, update
 from sqlalchemy.orm import Session
 
@@ -56,10 +58,25 @@ def latest_claim_versions(session: Session, case_id: int) -> dict[int, int]:
     return latest
 
 
-def record_event(session: Session, case: Case, *, kind: str, message: str) -> None:
-    """Add a line to the case's history, mark the case as active now and raise its revision."""
+def record_event(
+    session: Session, case: Case, *, kind: str, message: str, merge_within: timedelta | None = None
+) -> None:
+    """Add a line to the case's history, mark the case as active now and raise its revision.
+
+    With ``merge_within``, a line identical to the case's latest one and younger
+    than that only has its time moved forward (a note saved as it is typed
+    leaves one line, not one per pause).
+    """
     now = utc_now()
-    session.add(Event(case_id=case.id, at=now, kind=kind, message=message))
+    latest = None
+    if merge_within is not None:
+        latest = session.scalars(
+            select(Event).where(Event.case_id == case.id).order_by(Event.id.desc()).limit(1)
+        ).one_or_none()
+    if latest is not None and (latest.kind, latest.message) == (kind, message) and now - latest.at <= merge_within:
+        latest.at = now
+    else:
+        session.add(Event(case_id=case.id, at=now, kind=kind, message=message))
     case.last_activity = now
     bump_revision(session, case.id)
 

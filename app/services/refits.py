@@ -14,6 +14,7 @@ from concurrent.futures import wait
 from typing import Any
 
 from sqlalchemy import select
+from sqlalchemy.orm import Session
 
 from app.errors import SecondStageError
 from app.estimation.refit import refit
@@ -108,8 +109,16 @@ def get_refit(ctx: ServiceContext, *, case_id: int, refit_id: int) -> RefitResul
         return RefitResults(case=case_info(row.case), refit=refit_info(row), findings=row.findings)
 
 
+class RefitGone(Exception):
+    """The refit's row disappeared while it was computed (its case was deleted)."""
+
+
 def run_refit(ctx: ServiceContext, refit_id: int) -> None:
-    """Compute one refit (runs on the worker thread). Never raises: failures are stored with their reason."""
+    """Compute one refit (runs on the worker thread).
+
+    Never raises: failures are stored with their reason, and a refit whose case
+    was deleted meanwhile simply stops.
+    """
     with ctx.transaction() as session:
         row = session.get(Refit, refit_id)
         if row is None or row.state in ("finished", "failed"):
@@ -135,6 +144,8 @@ def run_refit(ctx: ServiceContext, refit_id: int) -> None:
         _set_stage(ctx, refit_id, STAGES[4])
         summary = checklists.summarise(checklists.build(findings, judgements={}, variants=variants))
         _finish(ctx, refit_id, findings=findings, variants=variants, summary=summary)
+    except RefitGone:
+        return
     except SecondStageError as error:
         _fail(ctx, refit_id, reason=str(error))
     except Exception:
@@ -156,9 +167,16 @@ def resume_unfinished(ctx: ServiceContext) -> list[int]:
     return refit_ids
 
 
+def _row(session: Session, refit_id: int) -> Refit:
+    row = session.get(Refit, refit_id)
+    if row is None:
+        raise RefitGone(refit_id)
+    return row
+
+
 def _set_stage(ctx: ServiceContext, refit_id: int, stage: str) -> None:
     with ctx.transaction() as session:
-        row = session.get_one(Refit, refit_id)
+        row = _row(session, refit_id)
         row.stage = stage
         bump_revision(session, row.case_id)
 
@@ -172,7 +190,7 @@ def _finish(
     summary: checklists.Summary,
 ) -> None:
     with ctx.transaction() as session:
-        row = session.get_one(Refit, refit_id)
+        row = _row(session, refit_id)
         row.findings = findings
         row.variants = variants
         row.schema_version = findings["schema_version"]
@@ -189,8 +207,15 @@ def _finish(
 
 
 def _fail(ctx: ServiceContext, refit_id: int, *, reason: str) -> None:
+    try:
+        _record_failure(ctx, refit_id, reason=reason)
+    except RefitGone:
+        return
+
+
+def _record_failure(ctx: ServiceContext, refit_id: int, *, reason: str) -> None:
     with ctx.transaction() as session:
-        row = session.get_one(Refit, refit_id)
+        row = _row(session, refit_id)
         row.state = "failed"
         row.error = reason
         row.finished_at = utc_now()

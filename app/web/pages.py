@@ -56,7 +56,9 @@ def cases_page(
 
 @router.get("/cases/new", name="new_case_page")
 def new_case_page(request: Request) -> HTMLResponse:
-    return render(request, "case_new.html", json_twin=None, values={}, problems=[])
+    # A form has no data to mirror: its twin is the API description of the request it sends.
+    twin = str(request.app.url_path_for("openapi"))
+    return render(request, "case_new.html", json_twin=twin, values={}, problems=[])
 
 
 @router.post("/cases", name="create_case_form")
@@ -71,8 +73,9 @@ def create_case_form(
         detail = cases.create_case(ctx, title=title, reference=reference, notes=notes)
     except InvalidInput as error:
         values = {"title": title, "reference": reference, "notes": notes}
+        twin = str(request.app.url_path_for("openapi"))
         return render(
-            request, "case_new.html", json_twin=None, values=values, problems=error.problems, status_code=422
+            request, "case_new.html", json_twin=twin, values=values, problems=error.problems, status_code=422
         )
     return see_other(str(request.app.url_path_for("case_page", case_id=str(detail.case.id))))
 
@@ -118,7 +121,8 @@ async def upload_form(request: Request, case_id: int) -> Response:
     except DataFileError as error:
         detail = await run_in_threadpool(cases.get_case, ctx, case_id=case_id)
         status = 413 if isinstance(error, FileTooLarge) else 422
-        return render(request, "upload.html", json_twin=None, page=detail, problem=str(error), status_code=status)
+        twin = str(request.app.url_path_for("api_get_case", case_id=str(case_id)))
+        return render(request, "upload.html", json_twin=twin, page=detail, problem=str(error), status_code=status)
     path = request.app.url_path_for("dataset_page", case_id=str(case_id), dataset_id=str(uploaded.dataset.id))
     return see_other(str(path))
 

@@ -115,3 +115,13 @@ def test_the_markdown_report_carries_the_reviewers_note(ctx: ServiceContext, rev
 def test_an_unknown_report_format_is_not_found(ctx: ServiceContext, reviewed: Reviewed) -> None:
     with pytest.raises(NotFound, match="no report format 'docx'"):
         checklists.export_report(ctx, case_id=reviewed.case_id, refit_id=reviewed.refit_id, format_name="docx")
+
+
+def test_saving_as_one_types_leaves_one_line_in_the_history(ctx: ServiceContext, reviewed: Reviewed) -> None:
+    item_id = checklists.get_checklist(ctx, case_id=reviewed.case_id, refit_id=reviewed.refit_id).sections[0].items[0]["id"]
+    for note in ("Ask", "Ask for", "Ask for the code."):
+        checklists.save_judgement(
+            ctx, case_id=reviewed.case_id, refit_id=reviewed.refit_id, item_id=item_id, standing=None, note=note
+        )
+    kinds = [event.kind for event in cases.get_case(ctx, case_id=reviewed.case_id).events]
+    assert kinds.count("judgement_saved") == 1

@@ -128,3 +128,35 @@ def wait_until_done(ctx: ServiceContext, case_id: int, refit_id: int, *, timeout
             return status
         time.sleep(0.05)
     raise AssertionError(f"refit {refit_id} did not finish in {timeout} s")
+
+
+def test_a_refit_whose_case_is_deleted_meanwhile_stops_quietly(
+    ctx: ServiceContext, reviewed: Reviewed, monkeypatch: pytest.MonkeyPatch, caplog: pytest.LogCaptureFixture
+) -> None:
+    read_then_delete_case = refits.load_frame
+
+    def deleting(*args: Any) -> pd.DataFrame:
+        frame = read_then_delete_case(*args)
+        cases.delete_case(ctx, case_id=reviewed.case_id)
+        return frame
+
+    monkeypatch.setattr(refits, "load_frame", deleting)
+    with ctx.transaction() as session:
+        row = Refit(
+            case_id=reviewed.case_id,
+            claim_id=reviewed.claim_id,
+            dataset_id=reviewed.dataset_id,
+            state="waiting",
+            stage=refits.STAGES[0],
+            dataset_sha256="0" * 64,
+            claim_sha256="0" * 64,
+        )
+        session.add(row)
+        session.flush()
+        refit_id = row.id
+
+    refits.run_refit(ctx, refit_id)
+
+    with ctx.reading() as session:
+        assert session.get(Refit, refit_id) is None
+    assert "failed" not in caplog.text

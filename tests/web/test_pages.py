@@ -8,6 +8,8 @@ from typing import Any
 import pytest
 from fastapi.testclient import TestClient
 
+from app.services import refits
+from app.store.models import Refit
 from app.web.templating import number
 from tests.web.conftest import Reviewed
 
@@ -44,10 +46,13 @@ def test_every_page_renders_and_its_json_twin_answers(client: TestClient, review
         assert data.headers["content-type"].startswith("application/json")
 
 
-def test_the_new_case_page_has_no_twin_but_a_form(client: TestClient) -> None:
+def test_the_new_case_form_links_the_api_description_of_its_request(client: TestClient) -> None:
     page = client.get("/cases/new")
     assert page.status_code == 200
     assert '<label for="title">' in page.text and 'name="title"' in page.text
+    twin = TWIN.search(page.text)
+    assert twin is not None and twin.group(1) == "/api/v1/openapi.json"
+    assert "NewCase" in client.get(twin.group(1)).json()["components"]["schemas"]
 
 
 def test_results_and_checklist_pages_carry_the_cautions(client: TestClient, reviewed: Reviewed) -> None:
@@ -264,3 +269,30 @@ def form_values(html: str) -> dict[str, Any]:
     for name, body in re.findall(r'<textarea[^>]*name="([^"]+)"[^>]*>(.*?)</textarea>', form, re.DOTALL):
         add(name, body)
     return values
+
+
+def test_a_refit_still_computing_shows_its_progress_and_polls(client: TestClient, reviewed: Reviewed) -> None:
+    ctx = client.app.state.services  # type: ignore[attr-defined]
+    with ctx.transaction() as session:
+        waiting = Refit(
+            case_id=reviewed.case_id,
+            claim_id=reviewed.claim_id,
+            dataset_id=reviewed.dataset_id,
+            state="waiting",
+            stage=refits.STAGES[0],
+            dataset_sha256="0" * 64,
+            claim_sha256="0" * 64,
+        )
+        session.add(waiting)
+        session.flush()
+        refit_id = waiting.id
+    base = f"{reviewed.case}/refits/{refit_id}"
+
+    page = client.get(base)
+    assert page.status_code == 200
+    assert '<noscript><meta http-equiv="refresh" content="2"></noscript>' in page.text
+    assert f'hx-get="{base}/progress" hx-trigger="every 1s"' in page.text
+    assert '<li class="current">Waiting for the worker</li>' in page.text
+    fragment = client.get(f"{base}/progress")
+    assert "HX-Refresh" not in fragment.headers
+    assert client.get(f"{base}/checklist").status_code == 409
