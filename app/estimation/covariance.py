@@ -200,10 +200,12 @@ class ClusterSums:
         return sums
 
     def meat(self, left: np.ndarray, right: np.ndarray) -> np.ndarray:
+        """``sum_g S_g(left) S_g(right)'``; symmetric only when the two residuals are the same."""
         scores_left = self.scores(left)
-        scores_right = scores_left if right is left else self.scores(right)
-        meat = scores_left.T @ scores_right
-        return (meat + meat.T) / 2
+        if right is left or np.array_equal(right, left):
+            meat = scores_left.T @ scores_left
+            return (meat + meat.T) / 2
+        return scores_left.T @ self.scores(right)
 
 
 class ClusterRobust(VarianceEstimator):

@@ -40,16 +40,44 @@ from app.estimation.linalg import SingularMatrixError
 from app.estimation.moments import Moments
 
 NULL = "the focal regressors are exogenous (OLS and 2SLS estimate the same effect)"
+CONTROL_FUNCTION = "Control-function (regression-based) endogeneity test"
+CONTROL_FUNCTION_SOURCE = "Hausman (1978); Wooldridge (2010), sec. 6.3.1"
+COLLINEAR_RESIDUALS = (
+    "the focal regressors' first-stage residuals are linearly dependent (one focal regressor equals "
+    "another plus a combination of instruments), so their exogeneity cannot be tested separately"
+)
 
 
 def endogeneity_tests(
     moments: Moments, variance: VarianceEstimator, *, ols: LinearFit, tsls: LinearFit, names: list[str]
 ) -> dict[str, TestResult]:
     """Durbin, Wu-Hausman, the control-function test and the residual correlation."""
+    results = durbin_wu_hausman(moments, ols=ols, tsls=tsls)
+    try:
+        results["control_function"] = control_function_test(moments, variance, names=names)
+    except SingularMatrixError:
+        results["control_function"] = TestResult.undefined(
+            CONTROL_FUNCTION, COLLINEAR_RESIDUALS, source=CONTROL_FUNCTION_SOURCE, null_hypothesis=NULL
+        )
+    results["residual_correlation"] = residual_correlation(moments, tsls=tsls, names=names)
+    return results
+
+
+def durbin_wu_hausman(moments: Moments, *, ols: LinearFit, tsls: LinearFit) -> dict[str, TestResult]:
+    """The two homoskedastic tests, from the OLS and 2SLS residuals' projections."""
     layout = moments.layout
     p = layout.n_endog
     n = moments.n_obs
-    projected_ols = moments.projected_ss(ols.residual, layout.instruments + layout.endog)
+    try:
+        projected_ols = moments.projected_ss(ols.residual, layout.instruments + layout.endog)
+    except SingularMatrixError:
+        return {
+            key: TestResult.undefined(name, COLLINEAR_RESIDUALS, source=source, null_hypothesis=NULL)
+            for key, name, source in (
+                ("durbin", "Durbin endogeneity test", "Durbin (1954)"),
+                ("wu_hausman", "Wu-Hausman endogeneity test", "Wu (1973); Hausman (1978)"),
+            )
+        }
     projected_iv = moments.projected_ss(tsls.residual, layout.instruments)
     delta = projected_ols - projected_iv
     total_ols = moments.quad(ols.residual, ols.residual)
@@ -78,8 +106,6 @@ def endogeneity_tests(
             source="Wu (1973); Hausman (1978)",
             details={"assumption": homoskedastic},
         ),
-        "control_function": control_function_test(moments, variance, names=names),
-        "residual_correlation": residual_correlation(moments, tsls=tsls, names=names),
     }
 
 
@@ -102,8 +128,8 @@ def control_function_test(moments: Moments, variance: VarianceEstimator, *, name
     )
     covariance = variance.covariance(fit)
     tested = slice(len(layout.regressors), len(layout.regressors) + p)
-    name = "Control-function (regression-based) endogeneity test"
-    source = "Hausman (1978); Wooldridge (2010), sec. 6.3.1"
+    name = CONTROL_FUNCTION
+    source = CONTROL_FUNCTION_SOURCE
     try:
         wald = wald_statistic(params[tested], covariance[tested, tested])
     except SingularMatrixError:

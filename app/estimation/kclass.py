@@ -33,7 +33,7 @@ import numpy as np
 from scipy import linalg
 
 from app.estimation.fits import LinearFit
-from app.estimation.linalg import inverse_pd
+from app.estimation.linalg import SingularMatrixError, inverse_pd
 from app.estimation.moments import Moments
 
 
@@ -75,7 +75,13 @@ def liml_kappa(moments: Moments) -> float:
     outcome_and_endog = [0, *layout.endog]
     given_exog = _residual_cross(moments, outcome_and_endog, layout.exog)
     given_instruments = _residual_cross(moments, outcome_and_endog, layout.instruments)
-    roots = linalg.eigh(given_exog, given_instruments, eigvals_only=True)
+    try:
+        roots = linalg.eigh(given_exog, given_instruments, eigvals_only=True)
+    except linalg.LinAlgError:
+        raise SingularMatrixError(
+            "the outcome and focal regressors are linearly dependent after projecting out the "
+            "instruments (a focal regressor equals another plus a combination of instruments)"
+        ) from None
     return float(roots.min())
 
 

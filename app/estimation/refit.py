@@ -154,21 +154,27 @@ def fit_estimators(moments: Moments, variance: VarianceEstimator, *, terms: list
     if moments.layout.n_instr == 0:
         return EstimatorFits(fits=fits, gmm=None, unavailable={})
     fits["2sls"] = kclass(moments, kappa=1.0, code="2sls", terms=terms)
-    liml = liml_kappa(moments)
-    fits["liml"] = kclass(moments, kappa=liml, code="liml", terms=terms)
-    for code, alpha in (("fuller1", 1.0), ("fuller4", 4.0)):
-        kappa = fuller_kappa(moments, liml=liml, alpha=alpha)
-        fits[code] = kclass(moments, kappa=kappa, code=code, terms=terms)
+    unavailable: dict[str, str] = {}
+    try:
+        liml = liml_kappa(moments)
+    except SingularMatrixError as error:
+        for code in ("liml", "fuller1", "fuller4"):
+            unavailable[code] = f"the LIML root is not defined: {error}"
+    else:
+        fits["liml"] = kclass(moments, kappa=liml, code="liml", terms=terms)
+        for code, alpha in (("fuller1", 1.0), ("fuller4", 4.0)):
+            kappa = fuller_kappa(moments, liml=liml, alpha=alpha)
+            fits[code] = kclass(moments, kappa=kappa, code=code, terms=terms)
     try:
         gmm = two_step_gmm(moments, variance, first_step=fits["2sls"], terms=terms)
     except SingularMatrixError:
-        reason = (
+        unavailable["gmm"] = (
             "the estimated covariance of the moment conditions is singular (for example fewer clusters "
             "than instruments), so the efficient GMM weight does not exist"
         )
-        return EstimatorFits(fits=fits, gmm=None, unavailable={"gmm": reason})
+        return EstimatorFits(fits=fits, gmm=None, unavailable=unavailable)
     fits["gmm"] = gmm.fit
-    return EstimatorFits(fits=fits, gmm=gmm, unavailable={})
+    return EstimatorFits(fits=fits, gmm=gmm, unavailable=unavailable)
 
 
 def iv_diagnostics(

@@ -104,3 +104,14 @@ def test_plain_regression_marks_every_iv_diagnostic_not_applicable(two_focal: pd
     for key in ("first_stage", "sargan", "hansen_j", "durbin", "control_function"):
         assert findings["diagnostics"][key]["standing"] == "not_applicable"
         assert "no instruments" in findings["diagnostics"][key]["reason"]
+
+
+def test_estimators_that_cannot_be_computed_are_reported_with_a_reason(two_focal: pd.DataFrame) -> None:
+    """A second focal regressor equal to the first plus instruments leaves no LIML root; 2SLS still exists."""
+    frame = two_focal.assign(dose=two_focal["focal"] + two_focal["z3"] - 0.5 * two_focal["z1"])
+    findings = refit(frame, parse_claim(iv_claim(TWO_ENDOGENOUS, endogenous=["focal", "dose"], covariance="robust")))
+    summaries = {summary.code: summary for summary in findings.estimators}
+    assert {row.estimator for row in findings.estimates} == {"ols", "2sls", "gmm"}
+    for code in ("liml", "fuller1", "fuller4"):
+        assert summaries[code].available is False
+        assert "LIML root is not defined" in summaries[code].reason
