@@ -121,7 +121,15 @@ DIAGNOSTIC_GROUPS = (
     (
         "strength",
         "Instrument strength",
-        ("first_stage", "effective_f", "stock_yogo", "cragg_donald", "kleibergen_paap"),
+        (
+            "first_stage",
+            "effective_f",
+            "stock_yogo",
+            "cragg_donald_f",
+            "kleibergen_paap_rk_f",
+            "kleibergen_paap_rk_lm",
+            "sanderson_windmeijer_f",
+        ),
         "How strongly the excluded instruments move the focal regressor. With a weak first stage, 2SLS is "
         "pulled toward OLS and its usual interval is too narrow.",
     ),
@@ -135,16 +143,52 @@ DIAGNOSTIC_GROUPS = (
     (
         "overid",
         "Do the instruments agree?",
-        ("sargan", "basmann", "hansen_j"),
+        ("sargan", "basmann", "hansen_j", "c_statistic"),
         "With more instruments than focal regressors, each instrument gives its own estimate. A rejection says "
-        "they disagree: at least one instrument is invalid, or they measure different effects. It cannot say which.",
+        "they disagree: at least one instrument is invalid, or they measure different effects. The per-instrument "
+        "statistics point at a suspect but cannot prove which one is at fault.",
+    ),
+    (
+        "validity",
+        "Could the instruments act on the outcome directly?",
+        ("instrument_balance", "plausibly_exogenous"),
+        "No test can prove an instrument valid. These show whether covariates measured before treatment differ "
+        "with the instruments, and how far the conclusion moves if an instrument has a small direct effect.",
     ),
     (
         "endogeneity",
         "Is the focal regressor endogenous?",
-        ("durbin", "wu_hausman", "control_function", "residual_correlation"),
+        ("durbin", "wu_hausman", "control_function", "residual_correlation", "disturbance_correlation"),
         "Compares the instrumented estimate with the naive one. A rejection says OLS is not to be trusted, "
         "provided the instruments are valid; no rejection does not prove the regressor exogenous.",
+    ),
+    (
+        "omitted",
+        "How strong would an omitted common cause have to be?",
+        ("omitted_cause_sensitivity", "proportional_selection"),
+        "How much of the outcome and the focal regressor an unmeasured common cause would have to explain to "
+        "remove the effect, benchmarked against measured covariates.",
+    ),
+    (
+        "panel",
+        "Are the unit effects tied to the regressors?",
+        ("variance_components", "mundlak", "hausman_fe_re"),
+        "Random effects are consistent only if each unit's own level is unrelated to its regressors. A rejection "
+        "says the within (fixed-effects) estimate is the one to read.",
+    ),
+    (
+        "design",
+        "The design's own assumptions",
+        ("mediation", "selection"),
+        "Checks specific to the claim's design: whether a mediator can carry the whole effect, or whether the "
+        "observed sample is selected on the outcome.",
+    ),
+    (
+        "clusters",
+        "Inference with few clusters",
+        ("wild_cluster_bootstrap",),
+        "Cluster-robust tests over-reject when clusters are few; the wild cluster bootstrap gives a p-value that "
+        "holds up better.",
     ),
     (
         "reduced_form",
