@@ -12,10 +12,10 @@ import argparse
 import sys
 from collections.abc import Sequence
 
-from app.cli import check, db, serve
+from app.cli import backup, check, db, purge, serve, user
 from app.errors import SecondStageError
 
-COMMAND_MODULES = (check, serve, db)
+COMMAND_MODULES = (check, serve, db, user, backup, purge)
 
 
 def build_parser() -> argparse.ArgumentParser:

@@ -1,10 +1,16 @@
-"""Cases: the triage overview, creating, reading and deleting a case."""
+"""Cases: the triage overview, creating, reading and deleting a case.
+
+The overview lists only the cases the actor sees; a referee who opens a case
+is given access to it at once.
+"""
 
 from __future__ import annotations
 
 from pydantic import BaseModel, ConfigDict, Field, ValidationError
-from sqlalchemy import func, select
+from sqlalchemy import bindparam, exists, func, select
+from sqlalchemy.orm import Session
 
+from app.auth.roles import GIVEN_ACCESS, Action, ServerAction
 from app.services.context import ServiceContext
 from app.services.errors import InvalidInput, NotFound, Problem, problems_from
 from app.services.records import (
@@ -14,11 +20,23 @@ from app.services.records import (
     event_info,
     latest_claim_versions,
     load_case,
+    record_audit,
     record_event,
     refit_info,
+    require_on_server,
+    visible_cases,
 )
-from app.services.views import CaseDetail, CaseOverview, CaseRow, ClaimThread
-from app.store.models import Case, Claim, Dataset, Event, Refit
+from app.services.session_links import link_info
+from app.services.views import (
+    AccessInfo,
+    CaseDetail,
+    CaseOverview,
+    CaseRow,
+    ClaimThread,
+    DeletionReport,
+    PersonInfo,
+)
+from app.store.models import Base, Case, CaseAccess, Claim, Dataset, Event, Judgement, Refit, SessionLink, User
 
 SORT_KEYS = ("activity", "title", "reference", "verdict", "serious", "reproduction")
 """Columns the triage overview can be sorted by."""
@@ -29,6 +47,12 @@ VERDICT_SEVERITY = ("not_reproduced", "not_supported", "fragile", "undetermined"
 REPRODUCTION_SEVERITY = ("not_reproduced", "partly_reproduced", "to_judge", "reproduced", "nothing_claimed")
 
 NOT_REVIEWED = "none"
+
+REVISION = select(Case.revision).where(Case.id == bindparam("case_id"))
+REVISION_IF_GIVEN = REVISION.where(
+    exists().where(CaseAccess.case_id == Case.id, CaseAccess.user_id == bindparam("user_id"))
+)
+"""A case's revision, for anyone, and for a referee or reader only if the case is given to them (built once)."""
 """Verdict filter value for cases without a finished refit."""
 
 
@@ -50,7 +74,7 @@ def list_cases(
     sort: str = "activity",
     descending: bool = True,
 ) -> CaseOverview:
-    """Every case with its latest finished refit's verdict, serious items and reproduction status.
+    """Every case the actor sees with its latest finished refit's verdict, serious items and reproduction status.
 
     ``query`` keeps cases whose title or manuscript reference contains it (any
     case); ``verdict`` keeps one verdict code, or :data:`NOT_REVIEWED` for cases
@@ -86,6 +110,7 @@ def list_cases(
         .outerjoin(latest, latest.c.case_id == Case.id)
         .outerjoin(Refit, Refit.id == latest.c.refit_id)
         .outerjoin(pending, pending.c.case_id == Case.id)
+        .where(visible_cases(ctx.actor))
     )
     with ctx.reading() as session:
         rows = [
@@ -144,7 +169,8 @@ def _sorted(rows: list[CaseRow], *, sort: str, descending: bool) -> list[CaseRow
 
 
 def create_case(ctx: ServiceContext, *, title: str, reference: str = "", notes: str = "") -> CaseDetail:
-    """Open a case for one manuscript."""
+    """Open a case for one manuscript; a referee who opens it is given access to it."""
+    require_on_server(ctx.actor, ServerAction.OPEN_CASES)
     try:
         fields = CaseFields(title=title, reference=reference, notes=notes)
     except ValidationError as error:
@@ -153,15 +179,29 @@ def create_case(ctx: ServiceContext, *, title: str, reference: str = "", notes: 
         case = Case(title=fields.title, reference=fields.reference, notes=fields.notes)
         session.add(case)
         session.flush()
-        record_event(session, case, kind="case_opened", message=f"Case opened: {case.title}")
+        if ctx.actor.role in GIVEN_ACCESS and ctx.actor.user_id is not None:
+            session.add(CaseAccess(case_id=case.id, user_id=ctx.actor.user_id, granted_by=ctx.actor.name))
+        record_event(session, case, kind="case_opened", message=f"Case opened: {case.title}", actor=ctx.actor)
         case_id = case.id
     return get_case(ctx, case_id=case_id)
 
 
-def get_case(ctx: ServiceContext, *, case_id: int) -> CaseDetail:
-    """The case page: its datasets, claims (all versions), refits and history."""
+def ensure_may_open(ctx: ServiceContext) -> None:
+    """Refuse, before the new-case form is shown, an actor whose role may not open cases."""
+    require_on_server(ctx.actor, ServerAction.OPEN_CASES)
+
+
+def get_case(ctx: ServiceContext, *, case_id: int, need: Action = Action.READ) -> CaseDetail:
+    """The case page: its datasets, claims (all versions), refits and history.
+
+    ``need`` is what the page is about to offer (the upload page needs
+    ``EDIT``, the delete page ``MANAGE``), so that it is refused up front.
+    Who has access, and who could be given it, is filled in only for actors
+    who may manage the case; session links only for those who may open them.
+    """
+    actor = ctx.actor
     with ctx.reading() as session:
-        case = load_case(session, case_id)
+        case = load_case(session, case_id, actor=actor, action=need)
         latest = latest_claim_versions(session, case_id)
         threads: dict[int, list[Claim]] = {}
         for claim in case.claims:
@@ -174,35 +214,122 @@ def get_case(ctx: ServiceContext, *, case_id: int) -> CaseDetail:
             select(Refit).where(Refit.case_id == case_id).order_by(Refit.id.desc())
         ).all()
         events = session.scalars(select(Event).where(Event.case_id == case_id).order_by(Event.id.desc())).all()
+        links = []
+        if actor.may(Action.SHARE):
+            rows = session.scalars(
+                select(SessionLink).where(SessionLink.case_id == case_id).order_by(SessionLink.id.desc())
+            ).all()
+            links = [link_info(row) for row in rows]
+        access, candidates = ([], []) if not actor.may(Action.MANAGE) else _people(session, case)
         return CaseDetail(
             case=case_info(case),
             datasets=[dataset_info(dataset) for dataset in case.datasets],
             claims=claims,
             refits=[refit_info(refit) for refit in refits],
             events=[event_info(event) for event in events],
+            access=access,
+            candidates=candidates,
+            links=links,
         )
+
+
+def _people(session: Session, case: Case) -> tuple[list[AccessInfo], list[PersonInfo]]:
+    """Who has access to the case, and the referees and readers who could be given it."""
+    access = [
+        AccessInfo(
+            user_id=row.user.id,
+            name=row.user.name,
+            full_name=row.user.full_name,
+            role=row.user.role,
+            granted_at=row.granted_at,
+            granted_by=row.granted_by,
+        )
+        for row in case.access
+    ]
+    given = {row.user_id for row in case.access}
+    others = session.scalars(
+        select(User).where(User.role.in_([str(role) for role in GIVEN_ACCESS])).order_by(User.name)
+    ).all()
+    candidates = [
+        PersonInfo(user_id=user.id, name=user.name, full_name=user.full_name, role=user.role)
+        for user in others
+        if user.id not in given
+    ]
+    return access, candidates
 
 
 def case_revision(ctx: ServiceContext, *, case_id: int) -> int:
     """How many changes the case has seen; pages of the case can be reused while it stays the same.
 
-    Asked before every cached page, so it reads one value on a plain connection (no ORM session).
+    Asked before every cached page, so it reads one value on a plain connection
+    (no ORM session); for referees and readers the same query checks their
+    access, so a case they may not see is :class:`NotFound` before any cached
+    page could be served.
     """
+    actor = ctx.actor
     with ctx.database.engine.connect() as connection:
-        revision = connection.scalar(select(Case.revision).where(Case.id == case_id))
+        if actor.sees_every_case:
+            revision = connection.scalar(REVISION, {"case_id": case_id})
+        else:
+            revision = connection.scalar(REVISION_IF_GIVEN, {"case_id": case_id, "user_id": actor.user_id})
     if revision is None:
         raise NotFound(f"there is no case {case_id}")
     return revision
 
 
-def delete_case(ctx: ServiceContext, *, case_id: int) -> None:
-    """Delete a case with everything it holds; its files go too unless another case holds the same bytes."""
+def delete_case(ctx: ServiceContext, *, case_id: int) -> DeletionReport:
+    """Delete a case with everything it holds, then check that nothing of it is left.
+
+    Its files go too unless another case holds the same bytes. Afterwards every
+    table with a ``case_id`` column (and the judgements of its refits) is
+    searched for the case, and the file store for its files; anything found is
+    an internal error. The deletion is recorded in the server's audit trail
+    (without the case's title, which went with the case).
+    """
     with ctx.files_lock:
         with ctx.transaction() as session:
-            case = load_case(session, case_id)
+            case = load_case(session, case_id, actor=ctx.actor, action=Action.MANAGE)
             hashes = {dataset.sha256 for dataset in case.datasets}
+            refit_ids = [refit.id for refit in case.refits]
+            counts = _rows_of(session, case_id, refit_ids)
+            reference = case.reference
             session.delete(case)
             session.flush()
             still_used = set(session.scalars(select(Dataset.sha256).where(Dataset.sha256.in_(hashes))).all())
-        for sha256 in hashes - still_used:
+            record_audit(
+                session,
+                actor=ctx.actor,
+                action="case_deleted",
+                subject=f"case {case_id}" + (f" ({reference})" if reference else ""),
+                detail=", ".join(f"{table}: {count}" for table, count in counts.items() if count),
+            )
+        erased = hashes - still_used
+        for sha256 in erased:
             ctx.files.delete(sha256)
+    ctx.database.checkpoint()
+    with ctx.reading() as session:
+        left = {table: count for table, count in _rows_of(session, case_id, refit_ids).items() if count}
+    files_left = [sha256 for sha256 in erased if ctx.files.contains(sha256)]
+    if left or files_left:
+        raise RuntimeError(f"case {case_id} was deleted but rows {left} and files {files_left} remain")
+    return DeletionReport(
+        case_id=case_id,
+        rows_removed=counts,
+        files_erased=len(erased),
+        files_kept_for_other_cases=len(hashes & still_used),
+        verified=True,
+    )
+
+
+def _rows_of(session: Session, case_id: int, refit_ids: list[int]) -> dict[str, int]:
+    """Rows that belong to a case, by table: every table with a ``case_id`` column, and the refits' judgements."""
+    counts = {"cases": session.scalar(select(func.count()).select_from(Case).where(Case.id == case_id)) or 0}
+    for table in Base.metadata.sorted_tables:
+        if "case_id" in table.c:
+            counts[table.name] = session.scalar(
+                select(func.count()).select_from(table).where(table.c.case_id == case_id)
+            ) or 0
+    counts["judgements"] = session.scalar(
+        select(func.count()).select_from(Judgement).where(Judgement.refit_id.in_(refit_ids))
+    ) or 0
+    return counts

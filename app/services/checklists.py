@@ -17,6 +17,8 @@ from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_valida
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
+from app.auth.actors import Actor
+from app.auth.roles import Action
 from app.review.checklist import REVIEWER_JUDGEMENTS, Checklist, ChecklistItem, Judgement, build_checklist
 from app.review.reports import REPORT_FORMATS
 from app.services.context import ServiceContext
@@ -121,7 +123,7 @@ def store_summary(row: Refit, summary: Summary) -> None:
 def get_checklist(ctx: ServiceContext, *, case_id: int, refit_id: int) -> ChecklistView:
     """The checklist page of a finished refit."""
     with ctx.reading() as session:
-        row = _finished_refit(session, case_id, refit_id)
+        row = _finished_refit(session, case_id, refit_id, actor=ctx.actor)
         checklist = checklist_of(row)
         return ChecklistView(
             case=case_info(row.case),
@@ -155,8 +157,9 @@ def save_judgement(
         raise InvalidInput(problems_from(error)) from None
     now = utc_now()
     with ctx.transaction() as session:
-        row = _finished_refit(session, case_id, refit_id)
+        row = _finished_refit(session, case_id, refit_id, actor=ctx.actor, action=Action.EDIT)
         judgements = judgements_of(row)
+        before = judgements.get(item_id, Judgement(standing=None, note=""))
         checklist = checklist_of(row, judgements=judgements)
         item = next((item for item in checklist.items if item.id == item_id), None)
         if item is None:
@@ -184,6 +187,9 @@ def save_judgement(
             row.case,
             kind="judgement_saved",
             message=f"Refit {refit_id}: {'judgement cleared' if cleared else 'judgement saved'} on '{item.item}'",
+            actor=ctx.actor,
+            audit_action="judgement_saved" if before.standing != judgement.standing else "note_saved",
+            audit_detail=_judgement_change(refit_id, item.item, before=before, after=judgement),
             merge_within=JUDGEMENT_EVENT_MERGE,
         )
         return JudgementSaved(
@@ -201,7 +207,7 @@ def export_report(ctx: ServiceContext, *, case_id: int, refit_id: int, format_na
     if report_format is None:
         raise NotFound(f"no report format '{format_name}'; choose one of {', '.join(REPORT_FORMATS)}")
     with ctx.reading() as session:
-        row = _finished_refit(session, case_id, refit_id)
+        row = _finished_refit(session, case_id, refit_id, actor=ctx.actor, action=Action.EXPORT)
         findings = row.findings or {}
         checklist = checklist_of(row)
         data_file_name = row.dataset.original_name
@@ -230,8 +236,20 @@ def item_data(item: ChecklistItem) -> dict[str, Any]:
     return {**item.to_dict(), "effective_standing": item.effective_standing}
 
 
-def _finished_refit(session: Session, case_id: int, refit_id: int) -> Refit:
-    row = load_refit(session, case_id, refit_id)
+def _judgement_change(refit_id: int, title: str, *, before: Judgement, after: Judgement) -> str:
+    """What a save changed, for the audit trail: the standing in words and the note's length, not its text."""
+    parts = []
+    if before.standing != after.standing:
+        parts.append(f"standing {before.standing or 'automatic'} to {after.standing or 'automatic'}")
+    if before.note != after.note:
+        parts.append(f"note {'removed' if not after.note else f'now {len(after.note)} characters'}")
+    return f"Refit {refit_id}, '{title}': " + ("; ".join(parts) or "saved unchanged")
+
+
+def _finished_refit(
+    session: Session, case_id: int, refit_id: int, *, actor: Actor, action: Action = Action.READ
+) -> Refit:
+    row = load_refit(session, case_id, refit_id, actor=actor, action=action)
     if row.state != "finished":
         reason = f"it failed: {row.error}" if row.state == "failed" else f"it is still {row.state}"
         raise NotReady(f"refit {refit_id} has no checklist: {reason}")

@@ -13,6 +13,7 @@ from typing import Any
 from pydantic import ValidationError
 from sqlalchemy import func, select
 
+from app.auth.roles import Action
 from app.provenance import claim_sha256
 from app.services.context import ServiceContext
 from app.services.diffs import field_changes
@@ -53,16 +54,20 @@ NUMERIC_ROLES: dict[str, str] = {
 def claim_editor(
     ctx: ServiceContext, *, case_id: int, dataset_id: int | None = None, claim_id: int | None = None
 ) -> ClaimEditor:
-    """The claim form's data: the chosen dataset's columns and, when revising, the version being edited."""
+    """The claim form's data: the chosen dataset's columns and, when revising, the version being edited.
+
+    The form exists to change the case, so it needs ``Action.EDIT``.
+    """
+    actor = ctx.actor
     with ctx.reading() as session:
-        case = load_case(session, case_id)
+        case = load_case(session, case_id, actor=actor, action=Action.EDIT)
         if not case.datasets:
             raise NotFound("this case has no data file yet: upload the replication data first")
-        base = load_claim(session, case_id, claim_id) if claim_id is not None else None
+        base = load_claim(session, case_id, claim_id, actor=actor, action=Action.EDIT) if claim_id is not None else None
         if dataset_id is not None:
-            dataset = load_dataset(session, case_id, dataset_id)
+            dataset = load_dataset(session, case_id, dataset_id, actor=actor, action=Action.EDIT)
         elif base is not None and base.drafted_on_id is not None:
-            dataset = load_dataset(session, case_id, base.drafted_on_id)
+            dataset = load_dataset(session, case_id, base.drafted_on_id, actor=actor, action=Action.EDIT)
         else:
             dataset = case.datasets[-1]
         latest = latest_claim_versions(session, case_id)
@@ -91,7 +96,7 @@ def column_choices(dataset: Dataset) -> list[ColumnChoice]:
 def check_claim(ctx: ServiceContext, *, case_id: int, dataset_id: int, spec: dict[str, Any]) -> ClaimCheck:
     """Validate a claim and its columns against a dataset version, without storing anything."""
     with ctx.reading() as session:
-        dataset = load_dataset(session, case_id, dataset_id)
+        dataset = load_dataset(session, case_id, dataset_id, actor=ctx.actor, action=Action.EDIT)
         parsed, problems = _validate(spec, dataset)
     return ClaimCheck(
         valid=not problems,
@@ -110,14 +115,16 @@ def create_claim(ctx: ServiceContext, *, case_id: int, dataset_id: int, spec: di
         dataset does not have or cannot use in that role.
     """
     with ctx.transaction() as session:
-        case = load_case(session, case_id)
-        dataset = load_dataset(session, case_id, dataset_id)
+        case = load_case(session, case_id, actor=ctx.actor, action=Action.EDIT)
+        dataset = load_dataset(session, case_id, dataset_id, actor=ctx.actor, action=Action.EDIT)
         parsed = _validated(spec, dataset)
         number = (session.scalar(select(func.max(Claim.number)).where(Claim.case_id == case_id)) or 0) + 1
         claim = _new_version(parsed, case_id=case_id, number=number, version=1, dataset=dataset, change_note="")
         session.add(claim)
         session.flush()
-        record_event(session, case, kind="claim_entered", message=f"Claim {number} entered: {claim.title}")
+        record_event(
+            session, case, kind="claim_entered", message=f"Claim {number} entered: {claim.title}", actor=ctx.actor
+        )
         claim_id = claim.id
     return get_claim(ctx, case_id=case_id, claim_id=claim_id)
 
@@ -133,9 +140,9 @@ def revise_claim(
 ) -> ClaimDetail:
     """Add a new version of the claim ``claim_id`` belongs to; earlier versions stay as they were."""
     with ctx.transaction() as session:
-        case = load_case(session, case_id)
-        base = load_claim(session, case_id, claim_id)
-        dataset = load_dataset(session, case_id, dataset_id)
+        case = load_case(session, case_id, actor=ctx.actor, action=Action.EDIT)
+        base = load_claim(session, case_id, claim_id, actor=ctx.actor, action=Action.EDIT)
+        dataset = load_dataset(session, case_id, dataset_id, actor=ctx.actor, action=Action.EDIT)
         parsed = _validated(spec, dataset)
         newest = session.scalars(
             select(Claim)
@@ -163,6 +170,9 @@ def revise_claim(
             kind="claim_revised",
             message=f"Claim {claim.number} revised to version {claim.version}"
             + (f": {claim.change_note}" if claim.change_note else ""),
+            actor=ctx.actor,
+            audit_detail=f"Claim {claim.number} revised to version {claim.version}; fields changed: "
+            + (", ".join(change.field for change in field_changes(newest.spec, claim.spec)) or "none"),
         )
         new_id = claim.id
     return get_claim(ctx, case_id=case_id, claim_id=new_id)
@@ -171,7 +181,7 @@ def revise_claim(
 def get_claim(ctx: ServiceContext, *, case_id: int, claim_id: int) -> ClaimDetail:
     """A claim version, all versions of the same claim, the change from the previous one, its refits."""
     with ctx.reading() as session:
-        claim = load_claim(session, case_id, claim_id)
+        claim = load_claim(session, case_id, claim_id, actor=ctx.actor)
         versions = session.scalars(
             select(Claim).where(Claim.case_id == case_id, Claim.number == claim.number).order_by(Claim.version)
         ).all()

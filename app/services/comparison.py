@@ -16,8 +16,8 @@ from app.store.models import Refit
 def compare_refits(ctx: ServiceContext, *, case_id: int, before_id: int, after_id: int) -> Comparison:
     """Compare refit ``before_id`` with refit ``after_id`` (both of case ``case_id``)."""
     with ctx.reading() as session:
-        before = load_refit(session, case_id, before_id)
-        after = load_refit(session, case_id, after_id)
+        before = load_refit(session, case_id, before_id, actor=ctx.actor)
+        after = load_refit(session, case_id, after_id, actor=ctx.actor)
         data_changed = before.dataset_sha256 != after.dataset_sha256
         claim_changes = field_changes(before.claim.spec, after.claim.spec)
         old, new = before.findings, after.findings

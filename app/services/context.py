@@ -1,14 +1,17 @@
-"""What every service call needs: settings, the database, the file store and the worker."""
+"""What every service call needs: settings, the database, the file store, the worker, and who is acting."""
 
 from __future__ import annotations
 
+import dataclasses
+import threading
 from collections.abc import Iterator
 from contextlib import contextmanager
-import threading
 from dataclasses import dataclass, field
 
 from sqlalchemy.orm import Session
 
+from app.auth.actors import SERVER, Actor
+from app.auth.passwords import Hasher
 from app.services.jobs import JobRunner
 from app.settings import Settings
 from app.store import migrate
@@ -18,17 +21,23 @@ from app.store.files import FileStore
 
 @dataclass
 class ServiceContext:
-    """The resources of one running server (or CLI command, or test).
+    """The resources of one running server (or CLI command, or test), and the actor of the call.
 
-    Build it with :meth:`open` and release it with :meth:`close`.
+    Build it with :meth:`open` and release it with :meth:`close`. A request
+    works on :meth:`acting_as` of the server's context: the same resources,
+    its own actor. Services check what ``actor`` may do (see
+    :mod:`app.services.records`).
     """
 
     settings: Settings
     database: Database
     files: FileStore
     jobs: JobRunner
+    hasher: Hasher
     files_lock: threading.Lock = field(default_factory=threading.Lock)
     """Held while a file is added or removed, so a delete never races an upload of the same bytes."""
+    actor: Actor = SERVER
+    """Who is acting; the server itself unless :meth:`acting_as` says otherwise."""
 
     @classmethod
     def open(cls, settings: Settings) -> ServiceContext:
@@ -42,7 +51,12 @@ class ServiceContext:
             database=database,
             files=FileStore(settings.files_dir),
             jobs=JobRunner(threads=settings.worker_threads),
+            hasher=Hasher(time_cost=settings.password_time_cost, memory_kib=settings.password_memory_kib),
         )
+
+    def acting_as(self, actor: Actor) -> ServiceContext:
+        """This context's resources, used on behalf of ``actor``."""
+        return dataclasses.replace(self, actor=actor)
 
     def close(self) -> None:
         """Stop the worker (running refits finish first), then close the file store and the database."""

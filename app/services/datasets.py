@@ -16,6 +16,7 @@ from typing import Any
 import pandas as pd
 from sqlalchemy import func, select
 
+from app.auth.roles import Action
 from app.data.profile import profile_frame
 from app.data.readers import ReadLimits, detect_format, read_table
 from app.errors import DataFileError
@@ -52,7 +53,7 @@ def upload_dataset(ctx: ServiceContext, *, case_id: int, source: Readable, file_
     """
     name = clean_file_name(file_name)
     with ctx.reading() as session:
-        load_case(session, case_id)
+        load_case(session, case_id, actor=ctx.actor, action=Action.EDIT)
     limit = ctx.settings.max_upload_bytes
     try:
         with ctx.files.receive(source, limit=limit, suffix=_suffix(name)) as incoming:
@@ -97,7 +98,7 @@ def _record_dataset(
     profile: dict[str, Any],
 ) -> int:
     with ctx.transaction() as session:
-        case = load_case(session, case_id)
+        case = load_case(session, case_id, actor=ctx.actor, action=Action.EDIT)
         version = (session.scalar(select(func.max(Dataset.version)).where(Dataset.case_id == case_id)) or 0) + 1
         dataset = Dataset(
             case_id=case_id,
@@ -117,6 +118,8 @@ def _record_dataset(
             case,
             kind="dataset_uploaded",
             message=f"Data version {version} uploaded: {name} ({profile['n_rows']} rows, {profile['n_columns']} columns)",
+            actor=ctx.actor,
+            audit_detail=f"Data version {version} uploaded: {name}, SHA-256 {sha256}",
         )
         return dataset.id
 
@@ -124,7 +127,7 @@ def _record_dataset(
 def get_dataset(ctx: ServiceContext, *, case_id: int, dataset_id: int) -> DatasetDetail:
     """A dataset version with its profile."""
     with ctx.reading() as session:
-        dataset = load_dataset(session, case_id, dataset_id)
+        dataset = load_dataset(session, case_id, dataset_id, actor=ctx.actor)
         return DatasetDetail(case=case_info(dataset.case), dataset=dataset_info(dataset), profile=dataset.profile)
 
 
@@ -137,8 +140,15 @@ def load_frame(ctx: ServiceContext, dataset: Dataset) -> pd.DataFrame:
 
 
 def read_limits(settings: Settings) -> ReadLimits:
-    """The reader's limits from the server settings."""
-    return ReadLimits(max_bytes=settings.max_upload_bytes, max_rows=settings.max_rows, max_columns=settings.max_columns)
+    """The reader's limits from the server settings (sizes, and the decompression-bomb guards)."""
+    return ReadLimits(
+        max_bytes=settings.max_upload_bytes,
+        max_rows=settings.max_rows,
+        max_columns=settings.max_columns,
+        max_cells=settings.max_cells,
+        max_unpacked_bytes=settings.max_unpacked_bytes,
+        max_compression_ratio=settings.max_compression_ratio,
+    )
 
 
 def clean_file_name(file_name: str) -> str:

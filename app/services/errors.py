@@ -17,6 +17,26 @@ class NotReady(SecondStageError):
     """The refit has no findings yet (still running) or failed; the message says which."""
 
 
+class Forbidden(SecondStageError):
+    """The actor sees the case (or is signed in) but may not do what was asked."""
+
+
+class CaseClosed(SecondStageError):
+    """The case is closed, so nothing in it can change until a coordinator reopens it."""
+
+
+class SignInRefused(SecondStageError):
+    """The name or password is wrong (the message never says which)."""
+
+
+class TooManyAttempts(SecondStageError):
+    """Too many failed sign-ins for this account or from this address; ``retry_after`` in seconds."""
+
+    def __init__(self, message: str, *, retry_after: int) -> None:
+        super().__init__(message)
+        self.retry_after = retry_after
+
+
 class FileRefused(DataFileError):
     """An upload was refused before it was read (empty, no usable name)."""
 

@@ -1,48 +1,101 @@
-"""Loading rows by id within a case (:class:`NotFound` otherwise), turning them into views, history.
+"""Loading rows by id within a case (:class:`NotFound` otherwise), access checks, views, history and audit.
 
 Every lookup takes the case id as well as the row id, so a dataset, claim or
-refit is only ever reached through the case that holds it; access checks can be
-added here once, for every service.
+refit is only ever reached through the case that holds it, and every lookup
+checks the acting user's access to that case here, once, for every service:
+
+* a case the actor may not see (a referee or reader without access to it) is
+  :class:`NotFound`, worded exactly as for a case that does not exist;
+* a visible case where the actor's role may not do the action asked is
+  :class:`Forbidden`;
+* a change (``Action.EDIT``) to a closed case is :class:`CaseClosed`.
+
+Every change to a case is written by :func:`record_event` (a line of the case's
+history and an audit entry) or :func:`bump_revision`; entries that belong to no
+case (sign-ins, accounts, deletions) by :func:`record_audit`.
 """
 
 from __future__ import annotations
 
-from datetime import timedelta
+from datetime import datetime, timedelta
 
-from sqlalchemy import select, update
+from sqlalchemy import ColumnElement, select, true, update
 from sqlalchemy.orm import Session
 
-from app.services.errors import NotFound
+from app.auth.actors import Actor
+from app.auth.roles import ACTION_WORDS, Action, ServerAction, role_label
+from app.services.errors import CaseClosed, Forbidden, NotFound
 from app.services.views import CaseInfo, ClaimInfo, DatasetInfo, EventInfo, RefitInfo
-from app.store.models import Case, Claim, Dataset, Event, Refit, utc_now
+from app.store.models import AuditEntry, Case, CaseAccess, Claim, Dataset, Event, Refit, utc_now
 
 
-def load_case(session: Session, case_id: int) -> Case:
-    """The case, or :class:`NotFound`."""
+def load_case(session: Session, case_id: int, *, actor: Actor, action: Action = Action.READ) -> Case:
+    """The case, if ``actor`` may see it and do ``action`` to it; :class:`NotFound` or :class:`Forbidden` otherwise."""
     case = session.get(Case, case_id)
-    if case is None:
+    if case is None or not can_see(session, actor, case_id):
         raise NotFound(f"there is no case {case_id}")
+    require(actor, action, case)
     return case
 
 
-def load_dataset(session: Session, case_id: int, dataset_id: int) -> Dataset:
+def require(actor: Actor, action: Action, case: Case) -> None:
+    """Refuse ``action`` on a case the actor sees: :class:`Forbidden` for the role, :class:`CaseClosed` for a change."""
+    if not actor.may(action):
+        raise Forbidden(f"as a {role_label(actor.role or '').lower()} you cannot {ACTION_WORDS[action]}")
+    if action is Action.EDIT and case.closed_at is not None:
+        raise CaseClosed(f"case {case.id} is closed, so nothing in it can change; a coordinator can reopen it")
+
+
+def require_on_server(actor: Actor, action: ServerAction) -> None:
+    """Refuse a server-wide action the actor's role does not allow."""
+    if not actor.may_on_server(action):
+        raise Forbidden(f"as a {role_label(actor.role or '').lower()} you cannot {action}")
+
+
+def can_see(session: Session, actor: Actor, case_id: int) -> bool:
+    """Whether ``actor`` sees the case: every case for the server, stewards and coordinators; else an access row."""
+    if actor.sees_every_case:
+        return True
+    memo: dict[tuple[int | None, int], bool] = session.info.setdefault("visible_cases", {})
+    key = (actor.user_id, case_id)
+    if key not in memo:
+        found = session.scalar(
+            select(CaseAccess.id).where(CaseAccess.case_id == case_id, CaseAccess.user_id == actor.user_id)
+        )
+        memo[key] = found is not None
+    return memo[key]
+
+
+def visible_cases(actor: Actor) -> ColumnElement[bool]:
+    """A condition on ``Case.id`` that keeps the cases ``actor`` sees."""
+    if actor.sees_every_case:
+        return true()
+    return Case.id.in_(select(CaseAccess.case_id).where(CaseAccess.user_id == actor.user_id))
+
+
+def load_dataset(
+    session: Session, case_id: int, dataset_id: int, *, actor: Actor, action: Action = Action.READ
+) -> Dataset:
     """A dataset version of this case, or :class:`NotFound`."""
+    load_case(session, case_id, actor=actor, action=action)
     dataset = session.get(Dataset, dataset_id)
     if dataset is None or dataset.case_id != case_id:
         raise NotFound(f"case {case_id} has no dataset {dataset_id}")
     return dataset
 
 
-def load_claim(session: Session, case_id: int, claim_id: int) -> Claim:
+def load_claim(session: Session, case_id: int, claim_id: int, *, actor: Actor, action: Action = Action.READ) -> Claim:
     """A claim version of this case, or :class:`NotFound`."""
+    load_case(session, case_id, actor=actor, action=action)
     claim = session.get(Claim, claim_id)
     if claim is None or claim.case_id != case_id:
         raise NotFound(f"case {case_id} has no claim {claim_id}")
     return claim
 
 
-def load_refit(session: Session, case_id: int, refit_id: int) -> Refit:
+def load_refit(session: Session, case_id: int, refit_id: int, *, actor: Actor, action: Action = Action.READ) -> Refit:
     """A refit of this case, or :class:`NotFound`."""
+    load_case(session, case_id, actor=actor, action=action)
     refit = session.get(Refit, refit_id)
     if refit is None or refit.case_id != case_id:
         raise NotFound(f"case {case_id} has no refit {refit_id}")
@@ -59,15 +112,30 @@ def latest_claim_versions(session: Session, case_id: int) -> dict[int, int]:
 
 
 def record_event(
-    session: Session, case: Case, *, kind: str, message: str, merge_within: timedelta | None = None
+    session: Session,
+    case: Case,
+    *,
+    kind: str,
+    message: str,
+    actor: Actor,
+    audit_action: str | None = None,
+    audit_detail: str | None = None,
+    merge_within: timedelta | None = None,
 ) -> None:
-    """Add a line to the case's history, mark the case as active now and raise its revision.
+    """Add a line to the case's history and to the audit trail, mark the case active now, raise its revision.
 
-    With ``merge_within``, a line identical to the case's latest one and younger
-    than that only has its time moved forward (a note saved as it is typed
-    leaves one line, not one per pause).
+    The history line says what happened, without names (referees need not
+    learn who else works on the case); the audit entry adds who did it, from
+    where, and ``audit_action`` / ``audit_detail`` when the history's kind and
+    line alone do not say what changed.
+    With ``merge_within``, a history line identical to the case's latest one and
+    younger than that only has its time moved forward (a note saved as it is
+    typed leaves one line, not one per pause); the audit trail keeps every save.
     """
     now = utc_now()
+    record_audit(
+        session, actor=actor, action=audit_action or kind, detail=audit_detail or message, case_id=case.id, at=now
+    )
     latest = None
     if merge_within is not None:
         latest = session.scalars(
@@ -94,6 +162,7 @@ def case_info(case: Case) -> CaseInfo:
         notes=case.notes,
         created_at=case.created_at,
         last_activity=case.last_activity,
+        closed_at=case.closed_at,
     )
 
 
@@ -154,3 +223,30 @@ def refit_info(refit: Refit) -> RefitInfo:
 
 def event_info(event: Event) -> EventInfo:
     return EventInfo(at=event.at, kind=event.kind, message=event.message)
+
+
+def record_audit(
+    session: Session,
+    *,
+    actor: Actor,
+    action: str,
+    detail: str,
+    case_id: int | None = None,
+    subject: str = "",
+    address: str | None = None,
+    at: datetime | None = None,
+) -> None:
+    """Append one entry to the audit trail (entries are never changed afterwards)."""
+    session.add(
+        AuditEntry(
+            at=at or utc_now(),
+            actor=actor.described()[:100],
+            actor_kind=actor.kind,
+            actor_user_id=actor.user_id,
+            address=(actor.address if address is None else address)[:64],
+            action=action,
+            case_id=case_id,
+            subject=subject[:300],
+            detail=detail,
+        )
+    )

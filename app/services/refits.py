@@ -16,6 +16,8 @@ from typing import Any
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
+from app.auth.actors import REFIT_WORKER
+from app.auth.roles import Action
 from app.errors import SecondStageError
 from app.estimation.refit import refit
 from app.provenance import refit_provenance
@@ -69,9 +71,9 @@ def start_refit(
     back ``waiting`` or ``running`` and continue in the background.
     """
     with ctx.transaction() as session:
-        case = load_case(session, case_id)
-        claim = load_claim(session, case_id, claim_id)
-        dataset = load_dataset(session, case_id, dataset_id)
+        case = load_case(session, case_id, actor=ctx.actor, action=Action.EDIT)
+        claim = load_claim(session, case_id, claim_id, actor=ctx.actor, action=Action.EDIT)
+        dataset = load_dataset(session, case_id, dataset_id, actor=ctx.actor, action=Action.EDIT)
         row = Refit(
             case_id=case_id,
             claim_id=claim.id,
@@ -89,6 +91,7 @@ def start_refit(
             kind="refit_started",
             message=f"Refit {row.id} started: claim {claim.number} version {claim.version} "
             f"on data version {dataset.version}",
+            actor=ctx.actor,
         )
         refit_id = row.id
     future = ctx.jobs.submit(run_refit, ctx, refit_id)
@@ -99,13 +102,13 @@ def start_refit(
 def refit_status(ctx: ServiceContext, *, case_id: int, refit_id: int) -> RefitInfo:
     """A refit's state and summary, without loading its findings."""
     with ctx.reading() as session:
-        return refit_info(load_refit(session, case_id, refit_id))
+        return refit_info(load_refit(session, case_id, refit_id, actor=ctx.actor))
 
 
 def get_refit(ctx: ServiceContext, *, case_id: int, refit_id: int) -> RefitResults:
     """A refit with its findings (None until it has finished)."""
     with ctx.reading() as session:
-        row = load_refit(session, case_id, refit_id)
+        row = load_refit(session, case_id, refit_id, actor=ctx.actor)
         return RefitResults(case=case_info(row.case), refit=refit_info(row), findings=row.findings)
 
 
@@ -203,6 +206,7 @@ def _finish(
             row.case,
             kind="refit_finished",
             message=f"Refit {refit_id} finished: {summary.verdict_label}",
+            actor=REFIT_WORKER,
         )
 
 
@@ -219,4 +223,10 @@ def _record_failure(ctx: ServiceContext, refit_id: int, *, reason: str) -> None:
         row.state = "failed"
         row.error = reason
         row.finished_at = utc_now()
-        record_event(session, row.case, kind="refit_failed", message=f"Refit {refit_id} could not be computed: {reason}")
+        record_event(
+            session,
+            row.case,
+            kind="refit_failed",
+            message=f"Refit {refit_id} could not be computed: {reason}",
+            actor=REFIT_WORKER,
+        )

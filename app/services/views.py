@@ -28,6 +28,7 @@ class CaseInfo(View):
     notes: str
     created_at: datetime
     last_activity: datetime
+    closed_at: datetime | None
 
 
 class CaseRow(View):
@@ -154,14 +155,55 @@ class EventInfo(View):
     message: str
 
 
+class PersonInfo(View):
+    """Someone who can be given access to a case."""
+
+    user_id: int
+    name: str
+    full_name: str
+    role: str
+
+
+class AccessInfo(View):
+    """A referee or reader given access to a case."""
+
+    user_id: int
+    name: str
+    full_name: str
+    role: str
+    granted_at: datetime
+    granted_by: str
+
+
+class SessionLinkInfo(View):
+    """A journal-club session link (its key is shown once, when it is opened, and never stored)."""
+
+    id: int
+    case_id: int
+    refit_id: int
+    label: str
+    created_by: str
+    created_at: datetime
+    expires_at: datetime
+    revoked_at: datetime | None
+    state: str
+    """``open``, ``expired`` or ``withdrawn``."""
+
+
 class CaseDetail(View):
-    """The case page: datasets, claims, refits, history."""
+    """The case page: datasets, claims, refits, history; who has access and the session links for those who manage them."""
 
     case: CaseInfo
     datasets: list[DatasetInfo]
     claims: list[ClaimThread]
     refits: list[RefitInfo]
     events: list[EventInfo]
+    access: list[AccessInfo]
+    """Filled only for those who may manage the case (referees do not learn who else reviews it)."""
+    candidates: list[PersonInfo]
+    """Referees and readers who could be given access (for those who may manage the case)."""
+    links: list[SessionLinkInfo]
+    """Session links of the case (for those who may open them)."""
 
 
 class ColumnChoice(View):
@@ -290,3 +332,145 @@ class Comparison(View):
     verdict_after: dict[str, Any] | None
     standing_changes: list[StandingChange]
     explanation: list[str]
+
+
+class SessionLinkOpened(View):
+    """A new session link; its ``key`` (the secret part of its address, ``/follow/{key}``) is shown only this once."""
+
+    link: SessionLinkInfo
+    key: str
+
+
+class FollowView(View):
+    """What a session link shows: one refit's results and checklist, read-only, without data or exports."""
+
+    case_title: str
+    case_reference: str
+    link: SessionLinkInfo
+    refit: RefitInfo
+    findings: dict[str, Any]
+    verdict: dict[str, Any]
+    sections: list[ChecklistSection]
+    judged_items: int
+    total_items: int
+
+
+class UserInfo(View):
+    """An account (never its password hash)."""
+
+    id: int
+    name: str
+    full_name: str
+    role: str
+    created_at: datetime
+    password_changed_at: datetime
+    open_sessions: int
+    active_tokens: int
+
+
+class RoleInfo(View):
+    """A role with what it may do."""
+
+    code: str
+    label: str
+    description: str
+
+
+class UserList(View):
+    """Every account of the server, and the roles one can have."""
+
+    users: list[UserInfo]
+    roles: list[RoleInfo]
+
+
+class TokenInfo(View):
+    """An API token (never its secret): its label, the first characters to recognise it, its state."""
+
+    id: int
+    label: str
+    hint: str
+    created_at: datetime
+    expires_at: datetime | None
+    last_used_at: datetime | None
+    revoked_at: datetime | None
+    state: str
+    """``active``, ``expired`` or ``revoked``."""
+
+
+class TokenCreated(View):
+    """A new API token; ``secret`` is shown only this once."""
+
+    token: TokenInfo
+    secret: str
+
+
+class AccountView(View):
+    """The signed-in person's own account and API tokens."""
+
+    user: UserInfo
+    role_description: str
+    tokens: list[TokenInfo]
+
+
+class AuditEntryInfo(View):
+    """One line of the audit trail: who, when, from where, what."""
+
+    id: int
+    at: datetime
+    actor: str
+    actor_kind: str
+    address: str
+    action: str
+    case_id: int | None
+    subject: str
+    detail: str
+
+
+class AuditTrail(View):
+    """A case's audit trail (``case`` set) or the server's (every entry), newest first."""
+
+    case: CaseInfo | None
+    entries: list[AuditEntryInfo]
+    total_entries: int
+    limit: int
+
+
+class DeletionReport(View):
+    """What deleting a case removed, checked afterwards."""
+
+    case_id: int
+    rows_removed: dict[str, int]
+    files_erased: int
+    files_kept_for_other_cases: int
+    verified: bool
+    """True once nothing of the case was found left in any table or in the file store."""
+
+
+class PurgeReport(View):
+    """Closed cases past the retention period: deleted, or (dry run) to be deleted."""
+
+    retention_days: int | None
+    dry_run: bool
+    cases: list[CaseInfo]
+    deletions: list[DeletionReport]
+
+
+class BackupReport(View):
+    """A backup folder written by ``secondstage backup``."""
+
+    folder: str
+    schema_revision: str | None
+    cases: int
+    files: int
+    total_bytes: int
+
+
+class RestoreReport(View):
+    """A data directory brought back by ``secondstage restore``."""
+
+    data_dir: str
+    schema_revision: str | None
+    cases: int
+    files: int
+    moved_aside: str | None
+    """Where the data directory's previous contents went (``--replace``), to be deleted once all is well."""

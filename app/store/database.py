@@ -2,6 +2,8 @@
 
 SQLite (the default) is opened in WAL mode with foreign keys enforced and a
 busy timeout, so that the request threads and the refit worker can share it.
+``secure_delete`` makes SQLite overwrite deleted content with zeros, so a
+deleted case's rows do not linger in free pages of the database file.
 JSON columns are written with ``allow_nan=False``: a NaN that slipped past the
 engine fails loudly instead of being stored as text strict parsers reject.
 """
@@ -22,6 +24,7 @@ SQLITE_PRAGMAS = (
     "PRAGMA foreign_keys=ON",
     "PRAGMA busy_timeout=10000",
     "PRAGMA synchronous=NORMAL",
+    "PRAGMA secure_delete=ON",
 )
 
 
@@ -55,6 +58,17 @@ class Database:
         """A session for reads only."""
         with self._sessions() as session:
             yield session
+
+    def checkpoint(self) -> None:
+        """Copy the write-ahead log into the database file and empty it (SQLite only).
+
+        Called after a deletion, so that the deleted rows' old pages do not stay
+        behind in the log file. Best effort: readers still open keep the log.
+        """
+        if not self.is_sqlite:
+            return
+        with self.engine.connect() as connection:
+            connection.exec_driver_sql("PRAGMA wal_checkpoint(TRUNCATE)")
 
     def dispose(self) -> None:
         """Close every pooled connection."""

@@ -5,6 +5,11 @@ refit's inputs and findings never change once written; its ``review_*``
 columns cache the checklist summary (verdict, serious items, reproduction)
 that the reviewer's judgements can change, so that the triage overview needs
 no findings parsing.
+
+People: *users* (with a role), their *web sessions* and *API tokens*, the
+*case access* rows that let referees and readers see a case, journal-club
+*session links*, and the append-only *audit entries*. Secrets (sessions,
+tokens, links) are stored as SHA-256 digests only; passwords as Argon2id hashes.
 """
 
 from __future__ import annotations
@@ -41,6 +46,9 @@ REFIT_STATES = ("waiting", "running", "finished", "failed")
 """Life of a refit: queued, computing, done with findings, or stopped with a reason."""
 
 JUDGEMENT_STANDINGS = ("sound", "concern", "serious")
+
+ACCOUNT_ROLES = ("steward", "coordinator", "referee", "reader")
+"""Roles of people on a server (see :mod:`app.auth.roles` for what each may do)."""
 
 
 def utc_now() -> datetime:
@@ -96,6 +104,8 @@ class Case(Base):
     last_activity: Mapped[datetime] = mapped_column(default=utc_now)
     revision: Mapped[int] = mapped_column(Integer, default=0, server_default="0")
     """Raised by one on every change to anything the case holds (pages cached per revision)."""
+    closed_at: Mapped[datetime | None]
+    """When the review was closed; closed cases are read-only and purged after the retention period."""
 
     datasets: Mapped[list[Dataset]] = relationship(
         back_populates="case", cascade="all, delete-orphan", passive_deletes=True, order_by="Dataset.version"
@@ -111,6 +121,9 @@ class Case(Base):
     )
     events: Mapped[list[Event]] = relationship(
         back_populates="case", cascade="all, delete-orphan", passive_deletes=True, order_by="Event.id"
+    )
+    access: Mapped[list[CaseAccess]] = relationship(
+        back_populates="case", cascade="all, delete-orphan", passive_deletes=True, order_by="CaseAccess.id"
     )
 
 
@@ -231,3 +244,111 @@ class Event(Base):
     message: Mapped[str] = mapped_column(Text)
 
     case: Mapped[Case] = relationship(back_populates="events")
+
+
+class User(Base):
+    """A person who signs in; ``name`` is what they type, ``password_hash`` an Argon2id hash."""
+
+    __tablename__ = "users"
+    __table_args__ = (
+        UniqueConstraint("name"),
+        CheckConstraint(_in("role", ACCOUNT_ROLES), name="role"),
+        {"sqlite_autoincrement": True},
+    )
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    name: Mapped[str] = mapped_column(String(60))
+    full_name: Mapped[str] = mapped_column(String(200), default="")
+    role: Mapped[str] = mapped_column(String(20))
+    password_hash: Mapped[str] = mapped_column(String(255))
+    created_at: Mapped[datetime] = mapped_column(default=utc_now)
+    password_changed_at: Mapped[datetime] = mapped_column(default=utc_now)
+
+
+class WebSession(Base):
+    """One sign-in from one browser; the cookie holds the secret, the row only its digest."""
+
+    __tablename__ = "web_sessions"
+    __table_args__ = (UniqueConstraint("secret_sha256"), {"sqlite_autoincrement": True})
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    user_id: Mapped[int] = mapped_column(ForeignKey("users.id", ondelete="CASCADE"), index=True)
+    secret_sha256: Mapped[str] = mapped_column(String(64))
+    created_at: Mapped[datetime] = mapped_column(default=utc_now)
+    expires_at: Mapped[datetime]
+    address: Mapped[str] = mapped_column(String(64), default="")
+
+
+class ApiToken(Base):
+    """A secret for scripted use of the JSON API, acting as its user; shown once, stored as a digest."""
+
+    __tablename__ = "api_tokens"
+    __table_args__ = (UniqueConstraint("secret_sha256"), {"sqlite_autoincrement": True})
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    user_id: Mapped[int] = mapped_column(ForeignKey("users.id", ondelete="CASCADE"), index=True)
+    label: Mapped[str] = mapped_column(String(100))
+    hint: Mapped[str] = mapped_column(String(12))
+    """The first characters of the token, so that its owner can tell tokens apart."""
+    secret_sha256: Mapped[str] = mapped_column(String(64))
+    created_at: Mapped[datetime] = mapped_column(default=utc_now)
+    expires_at: Mapped[datetime | None]
+    last_used_at: Mapped[datetime | None]
+    revoked_at: Mapped[datetime | None]
+
+
+class CaseAccess(Base):
+    """A referee assigned to a case, or a reader it is shared with (stewards and coordinators need none)."""
+
+    __tablename__ = "case_access"
+    __table_args__ = (UniqueConstraint("case_id", "user_id"), {"sqlite_autoincrement": True})
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    case_id: Mapped[int] = mapped_column(ForeignKey("cases.id", ondelete="CASCADE"))
+    user_id: Mapped[int] = mapped_column(ForeignKey("users.id", ondelete="CASCADE"), index=True)
+    granted_at: Mapped[datetime] = mapped_column(default=utc_now)
+    granted_by: Mapped[str] = mapped_column(String(100))
+
+    case: Mapped[Case] = relationship(back_populates="access")
+    user: Mapped[User] = relationship()
+
+
+class SessionLink(Base):
+    """A read-only link to one refit's results and checklist for a journal club; expires, can be withdrawn."""
+
+    __tablename__ = "session_links"
+    __table_args__ = (UniqueConstraint("secret_sha256"), {"sqlite_autoincrement": True})
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    case_id: Mapped[int] = mapped_column(ForeignKey("cases.id", ondelete="CASCADE"), index=True)
+    refit_id: Mapped[int] = mapped_column(ForeignKey("refits.id", ondelete="CASCADE"), index=True)
+    label: Mapped[str] = mapped_column(String(200), default="")
+    secret_sha256: Mapped[str] = mapped_column(String(64))
+    created_by: Mapped[str] = mapped_column(String(100))
+    created_at: Mapped[datetime] = mapped_column(default=utc_now)
+    expires_at: Mapped[datetime]
+    revoked_at: Mapped[datetime | None]
+
+
+class AuditEntry(Base):
+    """One line of the audit trail: who (``actor``), when (``at``), what (``action``, ``subject``, ``detail``).
+
+    Never changed once written (on SQLite a trigger refuses updates). Entries
+    about a case go with the case when it is deleted; the deletion itself is
+    recorded without a case id.
+    """
+
+    __tablename__ = "audit_entries"
+    __table_args__ = (Index("ix_audit_entries_action_at", "action", "at"), {"sqlite_autoincrement": True})
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    at: Mapped[datetime] = mapped_column(default=utc_now)
+    actor: Mapped[str] = mapped_column(String(100))
+    actor_kind: Mapped[str] = mapped_column(String(20))
+    actor_user_id: Mapped[int | None] = mapped_column(Integer)
+    """The acting user's id when it was written (kept as a number: the user may since be removed)."""
+    address: Mapped[str] = mapped_column(String(64), default="")
+    action: Mapped[str] = mapped_column(String(40))
+    case_id: Mapped[int | None] = mapped_column(ForeignKey("cases.id", ondelete="CASCADE"), index=True)
+    subject: Mapped[str] = mapped_column(String(300), default="")
+    detail: Mapped[str] = mapped_column(Text, default="")

@@ -6,7 +6,9 @@ Every error response of ``/api/v1`` has the body::
                "problems": [{"field": "instruments", "message": "..."}]}}
 
 HTML pages show the same message on the error page (forms re-render themselves
-with their problems instead, keeping what the reviewer typed).
+with their problems instead, keeping what the reviewer typed). A page asked for
+without a sign-in redirects to the sign-in page (an htmx request is told where
+to go with ``HX-Redirect``); the API answers 401 with ``WWW-Authenticate``.
 """
 
 from __future__ import annotations
@@ -16,12 +18,23 @@ from dataclasses import dataclass, field
 
 from fastapi import FastAPI, Request
 from fastapi.exceptions import RequestValidationError
-from fastapi.responses import JSONResponse, Response
+from fastapi.responses import JSONResponse, RedirectResponse, Response
 from pydantic import BaseModel
 from starlette.exceptions import HTTPException
 
 from app.errors import DataFileError, DesignError, SecondStageError, SpecError
-from app.services.errors import FileTooLarge, InvalidInput, NotFound, NotReady, Problem
+from app.services.errors import (
+    CaseClosed,
+    FileTooLarge,
+    Forbidden,
+    InvalidInput,
+    NotFound,
+    NotReady,
+    Problem,
+    SignInRefused,
+    TooManyAttempts,
+)
+from app.web.identity import SIGN_IN_PATH, FormTokenRefused, SignInRequired, sign_in_location
 
 log = logging.getLogger(__name__)
 
@@ -70,8 +83,14 @@ class ErrorInfo:
 
 
 ERROR_KINDS: tuple[tuple[type[Exception], int, str], ...] = (
+    (SignInRequired, 401, "sign_in_required"),
+    (SignInRefused, 401, "sign_in_refused"),
+    (FormTokenRefused, 403, "form_token_refused"),
+    (Forbidden, 403, "forbidden"),
     (NotFound, 404, "not_found"),
     (NotReady, 409, "not_ready"),
+    (CaseClosed, 409, "case_closed"),
+    (TooManyAttempts, 429, "too_many_attempts"),
     (FileTooLarge, 413, "file_too_large"),
     (DataFileError, 422, "unreadable_data_file"),
     (InvalidInput, 422, "invalid_input"),
@@ -83,6 +102,8 @@ ERROR_KINDS: tuple[tuple[type[Exception], int, str], ...] = (
 
 HTTP_CODES = {
     400: "bad_request",
+    401: "sign_in_required",
+    403: "forbidden",
     404: "not_found",
     405: "method_not_allowed",
     406: "not_acceptable",
@@ -111,7 +132,15 @@ def describe(error: Exception) -> ErrorInfo:
     )
 
 
+def _headers_for(error: Exception) -> dict[str, str]:
+    if isinstance(error, TooManyAttempts):
+        return {"Retry-After": str(error.retry_after)}
+    return {}
+
+
 def _request_problem(item: dict[str, object]) -> Problem:
+    if item.get("type") == "json_invalid":
+        return Problem(field=None, message="the request body is not valid JSON")
     location = [str(part) for part in item.get("loc", ()) if part not in ("body", "query", "path")]
     name = ".".join(location) or None
     message = str(item.get("msg", "invalid value")).removeprefix("Value error, ")
@@ -125,11 +154,18 @@ def install_error_handlers(app: FastAPI) -> None:
         info = describe(error)
         if info.status >= 500:
             log.error("unhandled error on %s %s", request.method, request.url.path, exc_info=error)
+        headers = _headers_for(error)
         if request.url.path.startswith(API_PREFIX):
-            return JSONResponse(info.body(), status_code=info.status)
+            if isinstance(error, SignInRequired):
+                headers["WWW-Authenticate"] = 'Bearer realm="secondstage"'
+            return JSONResponse(info.body(), status_code=info.status, headers=headers)
+        if isinstance(error, SignInRequired):
+            if request.headers.get("HX-Request") == "true":
+                return Response(status_code=401, headers={"HX-Redirect": SIGN_IN_PATH})
+            return RedirectResponse(sign_in_location(request), status_code=303)
         templates = request.app.state.templates
         return templates.TemplateResponse(
-            request, "error.html", {"error": info, "json_twin": None}, status_code=info.status
+            request, "error.html", {"error": info, "json_twin": None}, status_code=info.status, headers=headers
         )
 
     for kind in (RequestValidationError, HTTPException, SecondStageError, Exception):

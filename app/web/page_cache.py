@@ -6,9 +6,12 @@ holds, and every change to that raises the case's revision
 (path, query, revision): a later request for the same revision gets the same
 bytes without querying and rendering again.
 
-Anything else a page shows must be part of the key: today pages show nothing
-per user. Pages that show a user's name or carry a per-session form token must
-add the user (or session) to the key, or not be cached.
+Anything else a page shows must be part of the key: pages of a case show the
+signed-in person's name, offer what their role may do and carry their web
+session's form token, so they are kept per (session, role) as well
+(:func:`app.web.rendering.case_page_cached`). Pages of a session link show the
+same to everyone who follows it and are shared
+(:func:`app.web.rendering.link_page_cached`).
 """
 
 from __future__ import annotations

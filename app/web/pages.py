@@ -2,17 +2,20 @@
 
 Every page links its JSON twin (the same service result under ``/api/v1``).
 Forms post back here and redirect on success; on a problem they are shown
-again with the reviewer's input kept and the problems listed.
+again with the reviewer's input kept and the problems listed. Every route
+acts as the signed-in person (:func:`app.web.identity.services`), and the
+services check what that person may do.
 """
 
 from __future__ import annotations
 
 from typing import Annotated, Literal
 
-from fastapi import APIRouter, Depends, Form, Query, Request
+from fastapi import APIRouter, Depends, Form, Request
 from fastapi.responses import HTMLResponse, Response
 from starlette.concurrency import run_in_threadpool
 
+from app.auth.roles import Action
 from app.errors import DataFileError
 from app.services import cases, checklists, claims, comparison, datasets, refits
 from app.services.context import ServiceContext
@@ -20,19 +23,15 @@ from app.services.errors import FileTooLarge, InvalidInput, NotFound, Problem
 from app.services.views import ClaimEditor
 from app.web import figures, presenters
 from app.web.claim_form import ClaimForm
-from app.web.rendering import (
-    case_page_cached,
-    form_lists,
-    is_htmx,
-    render,
-    see_other,
-    services,
-)
+from app.web.identity import services, upload_services
+from app.web.params import FormRowId, QueryRowId, RowId, row_id
+from app.web.rendering import case_page_cached, form_lists, is_htmx, render, see_other
 from app.web.templating import dom_id
 from app.web.uploads import receive_dataset
 
 router = APIRouter(include_in_schema=False)
 Services = Annotated[ServiceContext, Depends(services)]
+UploadServices = Annotated[ServiceContext, Depends(upload_services)]
 
 
 # -- cases -------------------------------------------------------------------
@@ -55,7 +54,8 @@ def cases_page(
 
 
 @router.get("/cases/new", name="new_case_page")
-def new_case_page(request: Request) -> HTMLResponse:
+def new_case_page(request: Request, ctx: Services) -> HTMLResponse:
+    cases.ensure_may_open(ctx)
     # A form has no data to mirror: its twin is the API description of the request it sends.
     twin = str(request.app.url_path_for("openapi"))
     return render(request, "case_new.html", json_twin=twin, values={}, problems=[])
@@ -81,7 +81,7 @@ def create_case_form(
 
 
 @router.get("/cases/{case_id}", name="case_page")
-def case_page(request: Request, ctx: Services, case_id: int) -> Response:
+def case_page(request: Request, ctx: Services, case_id: RowId) -> Response:
     def build() -> HTMLResponse:
         detail = cases.get_case(ctx, case_id=case_id)
         twin = str(request.app.url_path_for("api_get_case", case_id=str(case_id)))
@@ -91,14 +91,14 @@ def case_page(request: Request, ctx: Services, case_id: int) -> Response:
 
 
 @router.get("/cases/{case_id}/delete", name="delete_case_page")
-def delete_case_page(request: Request, ctx: Services, case_id: int) -> HTMLResponse:
-    detail = cases.get_case(ctx, case_id=case_id)
+def delete_case_page(request: Request, ctx: Services, case_id: RowId) -> HTMLResponse:
+    detail = cases.get_case(ctx, case_id=case_id, need=Action.MANAGE)
     twin = str(request.app.url_path_for("api_get_case", case_id=str(case_id)))
     return render(request, "case_delete.html", json_twin=twin, page=detail)
 
 
 @router.post("/cases/{case_id}/delete", name="delete_case_form")
-def delete_case_form(request: Request, ctx: Services, case_id: int) -> Response:
+def delete_case_form(request: Request, ctx: Services, case_id: RowId) -> Response:
     cases.delete_case(ctx, case_id=case_id)
     return see_other(str(request.app.url_path_for("cases_page")))
 
@@ -107,15 +107,14 @@ def delete_case_form(request: Request, ctx: Services, case_id: int) -> Response:
 
 
 @router.get("/cases/{case_id}/datasets/new", name="upload_page")
-def upload_page(request: Request, ctx: Services, case_id: int) -> HTMLResponse:
-    detail = cases.get_case(ctx, case_id=case_id)
+def upload_page(request: Request, ctx: Services, case_id: RowId) -> HTMLResponse:
+    detail = cases.get_case(ctx, case_id=case_id, need=Action.EDIT)
     twin = str(request.app.url_path_for("api_get_case", case_id=str(case_id)))
     return render(request, "upload.html", json_twin=twin, page=detail, problem=None)
 
 
 @router.post("/cases/{case_id}/datasets", name="upload_form")
-async def upload_form(request: Request, case_id: int) -> Response:
-    ctx: ServiceContext = request.app.state.services
+async def upload_form(request: Request, ctx: UploadServices, case_id: RowId) -> Response:
     try:
         uploaded = await receive_dataset(request, ctx, case_id=case_id)
     except DataFileError as error:
@@ -128,7 +127,7 @@ async def upload_form(request: Request, case_id: int) -> Response:
 
 
 @router.get("/cases/{case_id}/datasets/{dataset_id}", name="dataset_page")
-def dataset_page(request: Request, ctx: Services, case_id: int, dataset_id: int) -> HTMLResponse:
+def dataset_page(request: Request, ctx: Services, case_id: RowId, dataset_id: RowId) -> HTMLResponse:
     detail = datasets.get_dataset(ctx, case_id=case_id, dataset_id=dataset_id)
     twin = str(request.app.url_path_for("api_get_dataset", case_id=str(case_id), dataset_id=str(dataset_id)))
     return render(request, "dataset.html", json_twin=twin, page=detail)
@@ -138,14 +137,14 @@ def dataset_page(request: Request, ctx: Services, case_id: int, dataset_id: int)
 
 
 @router.get("/cases/{case_id}/claims/new", name="new_claim_page")
-def new_claim_page(request: Request, ctx: Services, case_id: int, dataset_id: int | None = None) -> HTMLResponse:
+def new_claim_page(request: Request, ctx: Services, case_id: RowId, dataset_id: QueryRowId | None = None) -> HTMLResponse:
     editor = claims.claim_editor(ctx, case_id=case_id, dataset_id=dataset_id)
     return _claim_form(request, editor, form=ClaimForm.blank(), problems=[])
 
 
 @router.get("/cases/{case_id}/claims/{claim_id}/revise", name="revise_claim_page")
 def revise_claim_page(
-    request: Request, ctx: Services, case_id: int, claim_id: int, dataset_id: int | None = None
+    request: Request, ctx: Services, case_id: RowId, claim_id: RowId, dataset_id: QueryRowId | None = None
 ) -> HTMLResponse:
     editor = claims.claim_editor(ctx, case_id=case_id, dataset_id=dataset_id, claim_id=claim_id)
     form = ClaimForm.from_spec(editor.base.spec) if editor.base is not None else ClaimForm.blank()
@@ -153,19 +152,18 @@ def revise_claim_page(
 
 
 @router.post("/cases/{case_id}/claims", name="create_claim_form")
-async def create_claim_form(request: Request, case_id: int) -> Response:
-    return await _submit_claim(request, case_id=case_id, claim_id=None)
+async def create_claim_form(request: Request, ctx: Services, case_id: RowId) -> Response:
+    return await _submit_claim(request, ctx, case_id=case_id, claim_id=None)
 
 
 @router.post("/cases/{case_id}/claims/{claim_id}/revise", name="revise_claim_form")
-async def revise_claim_form(request: Request, case_id: int, claim_id: int) -> Response:
-    return await _submit_claim(request, case_id=case_id, claim_id=claim_id)
+async def revise_claim_form(request: Request, ctx: Services, case_id: RowId, claim_id: RowId) -> Response:
+    return await _submit_claim(request, ctx, case_id=case_id, claim_id=claim_id)
 
 
 @router.post("/cases/{case_id}/claims/check", name="check_claim_form")
-async def check_claim_form(request: Request, case_id: int) -> HTMLResponse:
+async def check_claim_form(request: Request, ctx: Services, case_id: RowId) -> HTMLResponse:
     """Inline validation while the form is filled in (htmx); nothing is stored."""
-    ctx: ServiceContext = request.app.state.services
     fields = form_lists(await request.form())
     editor = await run_in_threadpool(
         claims.claim_editor, ctx, case_id=case_id, dataset_id=_int(fields, "dataset_id")
@@ -177,14 +175,13 @@ async def check_claim_form(request: Request, case_id: int) -> HTMLResponse:
 
 
 @router.get("/cases/{case_id}/claims/{claim_id}", name="claim_page")
-def claim_page(request: Request, ctx: Services, case_id: int, claim_id: int) -> HTMLResponse:
+def claim_page(request: Request, ctx: Services, case_id: RowId, claim_id: RowId) -> HTMLResponse:
     detail = claims.get_claim(ctx, case_id=case_id, claim_id=claim_id)
     twin = str(request.app.url_path_for("api_get_claim", case_id=str(case_id), claim_id=str(claim_id)))
     return render(request, "claim.html", json_twin=twin, page=detail)
 
 
-async def _submit_claim(request: Request, *, case_id: int, claim_id: int | None) -> Response:
-    ctx: ServiceContext = request.app.state.services
+async def _submit_claim(request: Request, ctx: ServiceContext, *, case_id: RowId, claim_id: int | None) -> Response:
     fields = form_lists(await request.form())
     editor = await run_in_threadpool(
         claims.claim_editor, ctx, case_id=case_id, dataset_id=_int(fields, "dataset_id"), claim_id=claim_id
@@ -250,7 +247,7 @@ def _claim_form(
 
 def _int(fields: dict[str, list[str]], name: str) -> int | None:
     values = fields.get(name) or []
-    return int(values[0]) if values and values[0].isdigit() else None
+    return row_id(values[0]) if values else None
 
 
 # -- refits --------------------------------------------------------------------
@@ -260,16 +257,16 @@ def _int(fields: dict[str, list[str]], name: str) -> int | None:
 def start_refit_form(
     request: Request,
     ctx: Services,
-    case_id: int,
-    claim_id: Annotated[int, Form()],
-    dataset_id: Annotated[int, Form()],
+    case_id: RowId,
+    claim_id: FormRowId,
+    dataset_id: FormRowId,
 ) -> Response:
     refit = refits.start_refit(ctx, case_id=case_id, claim_id=claim_id, dataset_id=dataset_id)
     return see_other(str(request.app.url_path_for("refit_page", case_id=str(case_id), refit_id=str(refit.id))))
 
 
 @router.get("/cases/{case_id}/refits/{refit_id}", name="refit_page")
-def refit_page(request: Request, ctx: Services, case_id: int, refit_id: int) -> Response:
+def refit_page(request: Request, ctx: Services, case_id: RowId, refit_id: RowId) -> Response:
     def build() -> HTMLResponse:
         results = refits.get_refit(ctx, case_id=case_id, refit_id=refit_id)
         twin = str(request.app.url_path_for("api_get_refit", case_id=str(case_id), refit_id=str(refit_id)))
@@ -294,7 +291,7 @@ def refit_page(request: Request, ctx: Services, case_id: int, refit_id: int) -> 
 
 
 @router.get("/cases/{case_id}/refits/{refit_id}/progress", name="refit_progress")
-def refit_progress(request: Request, ctx: Services, case_id: int, refit_id: int) -> HTMLResponse:
+def refit_progress(request: Request, ctx: Services, case_id: RowId, refit_id: RowId) -> HTMLResponse:
     """The progress box alone (polled by htmx); once the refit is over, htmx reloads the page."""
     refit = refits.refit_status(ctx, case_id=case_id, refit_id=refit_id)
     response = render(request, "_refit_progress.html", json_twin=None, refit=refit, stages=refits.STAGES)
@@ -305,7 +302,7 @@ def refit_progress(request: Request, ctx: Services, case_id: int, refit_id: int)
 
 @router.get("/cases/{case_id}/refits/{refit_id}/figures/{figure}.svg", name="refit_figure")
 def refit_figure(
-    request: Request, ctx: Services, case_id: int, refit_id: int, figure: Literal["estimates", "first-stage"]
+    request: Request, ctx: Services, case_id: RowId, refit_id: RowId, figure: Literal["estimates", "first-stage"]
 ) -> Response:
     refits.refit_status(ctx, case_id=case_id, refit_id=refit_id)  # NotFound before any cached figure is served
 
@@ -322,7 +319,7 @@ def refit_figure(
 
 
 @router.get("/cases/{case_id}/refits/{refit_id}/checklist", name="checklist_page")
-def checklist_page(request: Request, ctx: Services, case_id: int, refit_id: int) -> Response:
+def checklist_page(request: Request, ctx: Services, case_id: RowId, refit_id: RowId) -> Response:
     def build() -> HTMLResponse:
         view = checklists.get_checklist(ctx, case_id=case_id, refit_id=refit_id)
         twin = str(request.app.url_path_for("api_get_checklist", case_id=str(case_id), refit_id=str(refit_id)))
@@ -335,8 +332,8 @@ def checklist_page(request: Request, ctx: Services, case_id: int, refit_id: int)
 def judgement_form(
     request: Request,
     ctx: Services,
-    case_id: int,
-    refit_id: int,
+    case_id: RowId,
+    refit_id: RowId,
     item_id: str,
     standing: Annotated[str, Form()] = "",
     note: Annotated[str, Form()] = "",
@@ -357,9 +354,9 @@ def judgement_form(
 def compare_page(
     request: Request,
     ctx: Services,
-    case_id: int,
-    before: Annotated[int, Query()],
-    after: Annotated[int, Query()],
+    case_id: RowId,
+    before: QueryRowId,
+    after: QueryRowId,
 ) -> HTMLResponse:
     view = comparison.compare_refits(ctx, case_id=case_id, before_id=before, after_id=after)
     twin = str(request.app.url_path_for("api_compare_refits", case_id=str(case_id)))
@@ -370,7 +367,7 @@ def compare_page(
 # -- API reference ---------------------------------------------------------------
 
 
-@router.get("/api", name="api_page")
+@router.get("/api", name="api_page", dependencies=[Depends(services)])
 def api_page(request: Request) -> HTMLResponse:
     schema = request.app.openapi()
     twin = str(request.app.url_path_for("openapi"))

@@ -1,4 +1,4 @@
-"""Small helpers shared by the page routes: the service context, rendering, redirects, form reading."""
+"""Small helpers shared by the page routes: rendering, cached pages, redirects, form reading."""
 
 from __future__ import annotations
 
@@ -9,18 +9,13 @@ from fastapi import Request
 from fastapi.responses import HTMLResponse, RedirectResponse, Response
 from starlette.datastructures import FormData
 
-from app.services import cases
+from app.services import cases, session_links
 from app.services.context import ServiceContext
 from app.services.datasets import format_bytes
 from app.services.errors import FileTooLarge
 
 UPLOAD_OVERHEAD_BYTES = 64 * 1024
 """Room for the multipart envelope and the other form fields around an uploaded file."""
-
-
-def services(request: Request) -> ServiceContext:
-    """The running server's :class:`ServiceContext` (a FastAPI dependency)."""
-    return request.app.state.services
 
 
 def render(
@@ -41,12 +36,24 @@ def render(
 def case_page_cached(request: Request, ctx: ServiceContext, *, case_id: int, render: Callable[[], Response]) -> Response:
     """A page of the case from the page cache, or freshly rendered when the case changed since.
 
-    Reading the revision also answers :class:`NotFound` for a case that does not
-    exist (or no longer does) before any cached page could be served.
+    Reading the revision also checks the actor's access and answers
+    :class:`NotFound` for a case that does not exist (or no longer does, or that
+    the actor may not see) before any cached page could be served. Pages are
+    kept per web session and role: they carry the session's form token and
+    offer what the role may do.
     """
     revision = cases.case_revision(ctx, case_id=case_id)
-    key = (request.url.path, request.url.query, revision)
+    key = (request.url.path, request.url.query, revision, ctx.actor.session_id, ctx.actor.role)
     return request.app.state.pages.get_or_render(key, render)
+
+
+def link_page_cached(request: Request, ctx: ServiceContext, *, key: str, render: Callable[[], Response]) -> Response:
+    """A page of a session link from the page cache (shared by everyone following the link), or freshly rendered.
+
+    The link is checked (open, not expired, not withdrawn) before any cached page could be served.
+    """
+    link = session_links.check_link(ctx, key=key)
+    return request.app.state.pages.get_or_render((request.url.path, request.url.query, link.revision), render)
 
 
 def see_other(path: str) -> RedirectResponse:

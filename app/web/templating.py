@@ -16,9 +16,13 @@ import functools
 from typing import Any
 
 from jinja2 import ChainableUndefined, Environment, FileSystemLoader, pass_context, select_autoescape
+from markupsafe import Markup, escape
 from starlette.applications import Starlette
 from starlette.templating import Jinja2Templates
 
+from app.auth import csrf
+from app.auth.actors import Actor
+from app.auth.roles import Action, ServerAction, role_label
 from app.estimation.inference import CONFIDENCE_LEVEL
 from app.review import formatting
 from app.services.datasets import format_bytes
@@ -50,7 +54,16 @@ def build_templates() -> Jinja2Templates:
         dom_id=dom_id,
     )
     environment.globals.update(
-        labels=labels, path=path, details=presenters.details, confidence_percent=round(100 * CONFIDENCE_LEVEL)
+        labels=labels,
+        path=path,
+        details=presenters.details,
+        confidence_percent=round(100 * CONFIDENCE_LEVEL),
+        viewer=viewer,
+        may=may,
+        may_on_server=may_on_server,
+        csrf_field=csrf_field,
+        csrf_token=csrf_token,
+        role_label=role_label,
     )
     return Jinja2Templates(env=environment)
 
@@ -59,6 +72,43 @@ def build_templates() -> Jinja2Templates:
 def path(context: Any, name: str, /, **params: Any) -> str:
     """The path of a named route (never a full URL, so pages only ever point at this server)."""
     return context["request"].app.state.paths(name, **params)
+
+
+@pass_context
+def viewer(context: Any) -> Actor | None:
+    """The signed-in person the page is for (None on pages shown before sign-in and on session links)."""
+    return getattr(context["request"].state, "actor", None)
+
+
+@pass_context
+def may(context: Any, action: str, case: Any = None) -> bool:
+    """Whether the page's viewer may do ``action`` (an :class:`~app.auth.roles.Action` value) to the case shown.
+
+    Changes to a closed case (``case.closed_at`` set) are not offered.
+    """
+    actor = viewer(context)
+    if actor is None or not actor.may(Action(action)):
+        return False
+    return not (Action(action) is Action.EDIT and case is not None and case.closed_at is not None)
+
+
+@pass_context
+def may_on_server(context: Any, action: str) -> bool:
+    """Whether the page's viewer may do a server-wide action (a :class:`~app.auth.roles.ServerAction` value)."""
+    actor = viewer(context)
+    return actor is not None and actor.may_on_server(ServerAction(action))
+
+
+@pass_context
+def csrf_token(context: Any) -> str:
+    """The form token of the viewer's web session (empty outside a session)."""
+    return getattr(context["request"].state, "csrf_token", None) or ""
+
+
+@pass_context
+def csrf_field(context: Any) -> Markup:
+    """The hidden form field that carries the form token; the first field of every form that changes something."""
+    return Markup('<input type="hidden" name="{}" value="{}">').format(csrf.FIELD, escape(csrf_token(context)))
 
 
 class RoutePaths:

@@ -9,6 +9,12 @@ limit is refused while it arrives.
 
 The service runs on a worker thread and reads through :class:`MultipartUpload`,
 which fetches the next block of the body from the event loop.
+
+A browser's upload is a state-changing request made with the session cookie,
+so it must carry the form token: in the ``X-CSRF-Token`` header, or in the
+``csrf_token`` field *before* the file field (the upload form puts it first).
+It is checked as soon as the file's headers arrive, before a byte of the file
+is stored.
 """
 
 from __future__ import annotations
@@ -21,10 +27,12 @@ from fastapi import Request
 from python_multipart.multipart import MultipartParser, parse_options_header
 from starlette.concurrency import run_in_threadpool
 
+from app.auth import csrf
 from app.errors import DataFileError
 from app.services import datasets
 from app.services.context import ServiceContext
 from app.services.views import DatasetDetail
+from app.web.identity import check_form_token
 from app.web.rendering import check_declared_size
 
 FILE_FIELD = "file"
@@ -43,11 +51,16 @@ async def receive_dataset(request: Request, ctx: ServiceContext, *, case_id: int
         The request is not a multipart form with a ``file`` field, is cut
         short, or the file cannot be read as a table (the service's message).
     """
+    header_token = request.headers.get(csrf.HEADER)
+    if header_token is not None or not request.headers.get("content-type", "").startswith("multipart/form-data"):
+        check_form_token(request, header_token)
     check_declared_size(request, limit=ctx.settings.max_upload_bytes)
     upload = MultipartUpload.from_request(request)
 
     def store() -> DatasetDetail:
         file_name = upload.open_file()
+        if header_token is None:
+            check_form_token(request, upload.fields_before_file.get(csrf.FIELD))
         return datasets.upload_dataset(ctx, case_id=case_id, source=upload, file_name=file_name)
 
     stored = await run_in_threadpool(store)
@@ -60,7 +73,9 @@ class MultipartUpload:
 
     Use from a worker thread: :meth:`open_file` reads up to the file's own
     headers and returns its name; :meth:`read` then returns its bytes and
-    ``b""`` at its end. Other fields are kept in :attr:`fields`.
+    ``b""`` at its end. Other fields are kept in :attr:`fields`; those that
+    came before the file, in :attr:`fields_before_file` (whatever the size of
+    the blocks the body arrived in).
     """
 
     def __init__(self, body: AsyncIterator[bytes], *, boundary: bytes) -> None:
@@ -87,6 +102,7 @@ class MultipartUpload:
         self.file_name: str | None = None
         self.file_finished = False
         self.fields: dict[str, str] = {}
+        self.fields_before_file: dict[str, str] = {}
 
     @classmethod
     def from_request(cls, request: Request) -> MultipartUpload:
@@ -173,6 +189,7 @@ class MultipartUpload:
         if name == FILE_FIELD and file_name is not None and self.file_name is None:
             self._part = "file"
             self.file_name = file_name.decode("utf-8", "replace")
+            self.fields_before_file = dict(self.fields)
         elif file_name is not None:
             self._part = None  # a file in another field, or a second file: skipped
         else:

@@ -1,6 +1,7 @@
 /* Progressive enhancement only: every page works with scripts off.
    The upload drop zone accepts a file dropped anywhere inside it (the file
-   input alone already accepts drops) and names the chosen file. */
+   input alone already accepts drops) and names the chosen file. In a
+   presentation, the arrow keys follow the previous and next links. */
 (function () {
   "use strict";
 
@@ -36,7 +37,25 @@
     input.addEventListener("change", showChoice);
   }
 
+  function stepWithKeys(presentation) {
+    document.addEventListener("keydown", function (event) {
+      if (event.altKey || event.ctrlKey || event.metaKey || event.target.closest("input, textarea, select")) {
+        return;
+      }
+      var rel = { ArrowRight: "next", PageDown: "next", ArrowLeft: "prev", PageUp: "prev" }[event.key];
+      var link = rel && presentation.querySelector('a[rel="' + rel + '"]');
+      if (link) {
+        event.preventDefault();
+        window.location.assign(link.href);
+      }
+    });
+  }
+
   document.addEventListener("DOMContentLoaded", function () {
     document.querySelectorAll("[data-dropzone]").forEach(enhanceDropzone);
+    var presentation = document.querySelector("[data-present]");
+    if (presentation) {
+      stepWithKeys(presentation);
+    }
   });
 })();

@@ -4,11 +4,16 @@ The server is the real command (``secondstage serve``) on a free loopback port
 with a temporary data directory; the browser is Debian's Chromium driven by
 Playwright's Python API (Playwright's own browser download is never used).
 Screenshots of each step go to ``tests/artifacts/browser/`` (git-ignored).
+
+A new server has no account: it prints a one-time first-run link, which the
+``steward`` fixture opens once, in the browser, to create the first steward;
+other tests start signed-in browser contexts from its stored state.
 """
 
 from __future__ import annotations
 
 import os
+import re
 import shutil
 import socket
 import subprocess
@@ -16,9 +21,13 @@ import sys
 import time
 import urllib.request
 from collections.abc import Iterator
+from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 import pytest
+
+from tests.accounts import PASSWORD
 
 CHROMIUM = shutil.which("chromium")
 CHROMIUM_ARGS = [
@@ -43,36 +52,93 @@ def free_port() -> int:
         return int(probe.getsockname()[1])
 
 
-@pytest.fixture(scope="session")
-def server(tmp_path_factory: pytest.TempPathFactory) -> Iterator[str]:
-    """The base URL of a running ``secondstage serve`` on an empty data directory."""
+FIRST_RUN_LINK = re.compile(r"(http://127\.0\.0\.1:\d+/welcome/[A-Za-z0-9_-]+)")
+STEWARD = "steward"
+
+
+@dataclass(frozen=True)
+class Server:
+    """A running ``secondstage serve``: its base URL and the first-run link it printed."""
+
+    base: str
+    first_run_link: str
+
+
+def start_server(data_dir: Path, log_path: Path, *, demo: bool = False) -> tuple[subprocess.Popen[bytes], Server]:
+    """``secondstage serve`` on a free loopback port; waits until it answers and has printed its first-run link."""
     port = free_port()
-    data_dir = tmp_path_factory.mktemp("browser-data")
-    log = (tmp_path_factory.mktemp("browser-log") / "server.log").open("w")
-    process = subprocess.Popen(
-        [sys.executable, "-m", "app.cli.main", "serve", "--port", str(port), "--data-dir", str(data_dir)],
-        cwd=REPOSITORY,
-        stdout=log,
-        stderr=subprocess.STDOUT,
-        env={**os.environ, "SECONDSTAGE_REFIT_WAIT_SECONDS": "10"},
-    )
+    command = [sys.executable, "-m", "app.cli.main", "serve", "--port", str(port), "--data-dir", str(data_dir)]
+    with log_path.open("w") as log:
+        process = subprocess.Popen(
+            command + (["--demo"] if demo else []),
+            cwd=REPOSITORY,
+            stdout=log,
+            stderr=subprocess.STDOUT,
+            env={**os.environ, "SECONDSTAGE_REFIT_WAIT_SECONDS": "10"},
+        )
     base = f"http://127.0.0.1:{port}"
-    try:
-        deadline = time.monotonic() + 30
-        while True:
-            try:
-                with urllib.request.urlopen(base + "/", timeout=1) as response:
-                    if response.status == 200:
-                        break
-            except OSError:
-                if process.poll() is not None or time.monotonic() > deadline:
-                    raise RuntimeError(f"the server did not start; see {log.name}") from None
-                time.sleep(0.2)
-        yield base
-    finally:
+    deadline = time.monotonic() + 60
+    while True:
+        try:
+            with urllib.request.urlopen(base + "/sign-in", timeout=1) as response:
+                if response.status == 200:
+                    break
+        except OSError:
+            if process.poll() is not None or time.monotonic() > deadline:
+                process.terminate()
+                raise RuntimeError(f"the server did not start; see {log_path}") from None
+            time.sleep(0.2)
+    link = FIRST_RUN_LINK.search(log_path.read_text())
+    if link is None:
         process.terminate()
-        process.wait(timeout=30)
-        log.close()
+        raise RuntimeError(f"the server printed no first-run link; see {log_path}")
+    return process, Server(base=base, first_run_link=link.group(1))
+
+
+def stop_server(process: subprocess.Popen[bytes]) -> None:
+    process.terminate()
+    process.wait(timeout=30)
+
+
+@pytest.fixture(scope="session")
+def server(tmp_path_factory: pytest.TempPathFactory) -> Iterator[Server]:
+    """A running ``secondstage serve`` on an empty data directory."""
+    process, running = start_server(
+        tmp_path_factory.mktemp("browser-data"), tmp_path_factory.mktemp("browser-log") / "server.log"
+    )
+    try:
+        yield running
+    finally:
+        stop_server(process)
+
+
+def complete_first_run(page: Any, link: str, *, name: str = STEWARD) -> None:
+    """Open the first-run link and create the first steward, as a newcomer does."""
+    page.goto(link)
+    page.get_by_label("Name to sign in with").fill(name)
+    page.get_by_label("Password", exact=True).fill(PASSWORD)
+    page.get_by_label("The same password again").fill(PASSWORD)
+    page.get_by_role("button", name="Create the steward and sign in").click()
+    page.get_by_role("heading", name="Cases under review").wait_for()
+
+
+def sign_in(page: Any, base: str, name: str, *, password: str = PASSWORD) -> None:
+    """Sign in through the sign-in page."""
+    page.goto(base + "/sign-in")
+    page.get_by_label("Name").fill(name)
+    page.get_by_label("Password").fill(password)
+    page.get_by_role("button", name="Sign in").click()
+    page.get_by_role("heading", name="Cases under review").wait_for()
+
+
+@pytest.fixture(scope="session")
+def steward(browser: Any, server: Server) -> dict[str, Any]:
+    """The browser state of the first steward, created once through the server's first-run link."""
+    context = browser.new_context()
+    complete_first_run(context.new_page(), server.first_run_link)
+    state = context.storage_state()
+    context.close()
+    return state
 
 
 @pytest.fixture(scope="session")

@@ -1,17 +1,23 @@
-"""A newcomer's path in a real browser, from an empty server to an exported Markdown report.
+"""A newcomer's path in a real browser.
 
-Create a case, upload the demo file, enter the claim through the form, refit,
-read the comparison table, open the checklist, record a judgement and a note,
-reload and find them, export Markdown. Then the same core flow with scripts off.
+First, the README's first command: ``secondstage serve --demo`` prints a
+one-time first-run link; the newcomer chooses the steward's name and password
+there and lands on the finished demo reviews. Then, on an empty server: create
+a case, upload the demo file, enter the claim through the form, refit, read the
+comparison table, open the checklist, record a judgement and a note, reload and
+find them, export Markdown. Then the same core flow with scripts off.
 """
 
 from __future__ import annotations
 
 import re
+from collections.abc import Iterator
 from pathlib import Path
 from typing import Any
 
 import pytest
+
+from tests.browser.conftest import Server, complete_first_run, start_server, stop_server
 
 pytestmark = pytest.mark.browser
 
@@ -39,13 +45,53 @@ def enter_claim(page: Any) -> None:
     page.get_by_label("Observations").fill("2394")
 
 
-def test_from_an_empty_server_to_an_exported_report(browser: Any, server: str, shots: Any, tmp_path: Path) -> None:
-    context = browser.new_context(viewport={"width": 1280, "height": 900}, accept_downloads=True)
+@pytest.fixture
+def demo_server(tmp_path: Path) -> Iterator[Server]:
+    """``secondstage serve --demo``, exactly as the README's first command runs it."""
+    process, running = start_server(tmp_path / "demo-data", tmp_path / "demo.log", demo=True)
+    try:
+        yield running
+    finally:
+        stop_server(process)
+
+
+def test_serve_demo_opens_on_finished_reviews_after_the_first_run(browser: Any, demo_server: Server, shots: Any) -> None:
+    context = browser.new_context(viewport={"width": 1280, "height": 900})
     page = context.new_page()
     outside: list[str] = []
-    page.on("request", lambda request: None if request.url.startswith(server) else outside.append(request.url))
+    page.on("request", lambda request: None if request.url.startswith(demo_server.base) else outside.append(request.url))
 
-    page.goto(server + "/")
+    page.goto(demo_server.base + "/")
+    page.get_by_text("This server has no account yet").wait_for()
+    shots(page, "sign-in-before-the-first-run")
+    complete_first_run(page, demo_server.first_run_link, name="newcomer")
+    shots(page, "demo-cases")
+
+    rows = page.locator("table tbody tr")
+    assert rows.count() == 4
+    assert page.locator(".verdict-badge").count() == 4
+    page.locator("td .verdict-badge").first.click()
+    page.get_by_role("heading", name=re.compile("^Checklist")).wait_for()
+    assert page.locator("#verdict .verdict-badge").is_visible()
+    assert page.get_by_text("A flag is a reason to ask the authors").is_visible()
+    shots(page, "demo-checklist")
+
+    page.goto(demo_server.first_run_link)
+    assert page.get_by_role("heading", name="Not found").is_visible()
+    assert outside == []
+    context.close()
+
+
+def test_from_an_empty_server_to_an_exported_report(
+    browser: Any, server: Server, steward: dict[str, Any], shots: Any, tmp_path: Path
+) -> None:
+    base = server.base
+    context = browser.new_context(viewport={"width": 1280, "height": 900}, accept_downloads=True, storage_state=steward)
+    page = context.new_page()
+    outside: list[str] = []
+    page.on("request", lambda request: None if request.url.startswith(base) else outside.append(request.url))
+
+    page.goto(base + "/")
     shots(page, "empty-server")
     page.get_by_role("link", name="Open a case").first.click()
     page.get_by_label("Title").fill("Walking and blood pressure")
@@ -107,11 +153,11 @@ def test_from_an_empty_server_to_an_exported_report(browser: Any, server: str, s
     context.close()
 
 
-def test_the_core_flow_works_with_scripts_off(browser: Any, server: str, shots: Any) -> None:
-    context = browser.new_context(viewport={"width": 1280, "height": 900}, java_script_enabled=False)
+def test_the_core_flow_works_with_scripts_off(browser: Any, server: Server, steward: dict[str, Any], shots: Any) -> None:
+    context = browser.new_context(viewport={"width": 1280, "height": 900}, java_script_enabled=False, storage_state=steward)
     page = context.new_page()
 
-    page.goto(server + "/cases/new")
+    page.goto(server.base + "/cases/new")
     page.get_by_label("Title").fill("Scripts off")
     page.get_by_role("button", name="Open the case").click()
     page.get_by_role("link", name="Upload a data file").click()
@@ -133,18 +179,20 @@ def test_the_core_flow_works_with_scripts_off(browser: Any, server: str, shots: 
     context.close()
 
 
-def test_every_control_has_a_label_and_the_skip_link_comes_first(browser: Any, server: str) -> None:
-    context = browser.new_context()
+def test_every_control_has_a_label_and_the_skip_link_comes_first(
+    browser: Any, server: Server, steward: dict[str, Any]
+) -> None:
+    context = browser.new_context(storage_state=steward)
     page = context.new_page()
-    page.goto(server + "/")
+    page.goto(server.base + "/")
     page.keyboard.press("Tab")
     assert page.evaluate("document.activeElement.textContent") == "Skip to the content"
 
     cases = page.locator("table a").first
     if cases.count():
         cases.click()
-    for path in ("/cases/new", "/"):
-        page.goto(server + path)
+    for path in ("/cases/new", "/", "/account", "/people", "/sign-in"):
+        page.goto(server.base + path)
         unlabelled = page.evaluate(
             """() => [...document.querySelectorAll('input:not([type=hidden]), select, textarea')]
                  .filter(el => !(el.labels && el.labels.length) && !el.getAttribute('aria-label'))

@@ -19,6 +19,7 @@ import pytest
 from app.services import cases, claims, datasets, refits
 from app.services.context import ServiceContext
 from app.settings import Settings
+from tests.accounts import FAST_HASHING
 from tests.simulation import IvDesign, iv_claim, iv_sample
 
 DEMO_DIR = Path(__file__).resolve().parents[2] / "seed_demo" / "cases" / "walking_blood_pressure"
@@ -36,8 +37,8 @@ class Reviewed:
 
 @pytest.fixture
 def settings(tmp_path: Path) -> Settings:
-    """Settings on a temporary data directory; refits are waited for, uploads capped at 4 MB."""
-    return Settings(data_dir=tmp_path / "data", refit_wait_seconds=60.0, max_upload_bytes=4 * 1024 * 1024)
+    """Settings on a temporary data directory; refits are waited for, uploads capped at 4 MB, cheap password hashing."""
+    return Settings(data_dir=tmp_path / "data", refit_wait_seconds=60.0, max_upload_bytes=4 * 1024 * 1024, **FAST_HASHING)
 
 
 @pytest.fixture

@@ -8,6 +8,7 @@ import pytest
 from alembic.autogenerate import compare_metadata
 from alembic.runtime.migration import MigrationContext
 from sqlalchemy import inspect
+from sqlalchemy.exc import DatabaseError
 
 from app.cli.main import main
 from app.store import migrate
@@ -78,3 +79,24 @@ def test_the_db_command_creates_and_then_reports_an_up_to_date_database(
     assert main(["db", "upgrade", "--data-dir", str(data_dir)]) == 0
     assert "up to date" in capsys.readouterr().out
     assert (data_dir / "secondstage.sqlite3").is_file()
+
+
+def test_upgrading_to_accounts_keeps_cases_open_and_the_trail_append_only(database: Database) -> None:
+    migrate.upgrade(database, revision="0002")
+    with database.engine.begin() as connection:
+        connection.exec_driver_sql(
+            "INSERT INTO cases (title, reference, notes, created_at, last_activity, revision) "
+            "VALUES ('Kept', 'MS-1', '', '2026-01-01 00:00:00', '2026-01-01 00:00:00', 3)"
+        )
+
+    migrate.upgrade(database)
+
+    with database.engine.begin() as connection:
+        assert connection.exec_driver_sql("SELECT title, revision, closed_at FROM cases").all() == [("Kept", 3, None)]
+        connection.exec_driver_sql(
+            "INSERT INTO audit_entries (at, actor, actor_kind, address, action, subject, detail) "
+            "VALUES ('2026-01-01 00:00:00', 'x', 'system', '', 'test', '', '')"
+        )
+    with pytest.raises(DatabaseError, match="the audit trail cannot be changed"):
+        with database.engine.begin() as connection:
+            connection.exec_driver_sql("UPDATE audit_entries SET detail = 'rewritten'")

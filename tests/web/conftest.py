@@ -1,4 +1,9 @@
-"""Fixtures for the route tests: the app on a temporary data directory, driven in-process."""
+"""Fixtures for the route tests: the app on a temporary data directory, driven in-process.
+
+The client is signed in as a steward (who may do everything) and sends its
+form token with every request; access and form-token refusals are specified
+in ``tests/security``.
+"""
 
 from __future__ import annotations
 
@@ -13,6 +18,7 @@ from fastapi.testclient import TestClient
 
 from app.settings import Settings
 from app.web.app import create_app
+from tests.accounts import FAST_HASHING, add_account, sign_in
 
 DEMO_DIR = Path(__file__).resolve().parents[2] / "seed_demo" / "cases" / "walking_blood_pressure"
 UPLOAD_LIMIT = 2 * 1024 * 1024
@@ -38,13 +44,15 @@ class Reviewed:
 
 @pytest.fixture
 def settings(tmp_path: Path) -> Settings:
-    return Settings(data_dir=tmp_path / "data", refit_wait_seconds=60.0, max_upload_bytes=UPLOAD_LIMIT)
+    return Settings(data_dir=tmp_path / "data", refit_wait_seconds=60.0, max_upload_bytes=UPLOAD_LIMIT, **FAST_HASHING)
 
 
 @pytest.fixture
 def client(settings: Settings) -> Iterator[TestClient]:
-    """The app with its lifespan running (database, worker), closed after the test."""
+    """The app with its lifespan running (database, worker), signed in as a steward; closed after the test."""
     with TestClient(create_app(settings)) as test_client:
+        add_account(test_client.app.state.services, "steward", "steward")  # type: ignore[attr-defined]
+        sign_in(test_client, "steward")
         yield test_client
 
 

@@ -42,6 +42,17 @@ def test_the_openapi_document_lists_every_operation(client: TestClient) -> None:
         ("PUT", "/api/v1/cases/{case_id}/refits/{refit_id}/judgements/{item_id}"),
         ("GET", "/api/v1/cases/{case_id}/refits/{refit_id}/reports/{format_name}"),
         ("GET", "/api/v1/cases/{case_id}/compare"),
+        ("POST", "/api/v1/cases/{case_id}/close"),
+        ("POST", "/api/v1/cases/{case_id}/reopen"),
+        ("PUT", "/api/v1/cases/{case_id}/access/{user_id}"),
+        ("DELETE", "/api/v1/cases/{case_id}/access/{user_id}"),
+        ("GET", "/api/v1/cases/{case_id}/audit"),
+        ("POST", "/api/v1/cases/{case_id}/refits/{refit_id}/links"),
+        ("DELETE", "/api/v1/cases/{case_id}/links/{link_id}"),
+        ("GET", "/api/v1/follow/{key}"),
+        ("GET", "/api/v1/me"),
+        ("GET", "/api/v1/people"),
+        ("GET", "/api/v1/audit"),
     }
     assert "ErrorBody" in schema["components"]["schemas"]
 

@@ -117,7 +117,8 @@ def test_an_unexpected_error_is_a_clean_500(client: TestClient, reviewed: Review
         raise RuntimeError("secret detail")
 
     monkeypatch.setattr(pages.cases, "get_case", broken)
-    page = TestClient(client.app, raise_server_exceptions=False).get(reviewed.case)
+    signed_in = TestClient(client.app, raise_server_exceptions=False, cookies=client.cookies)
+    page = signed_in.get(reviewed.case)
     assert page.status_code == 500
     assert "secret detail" not in page.text and "Traceback" not in page.text
     assert "the server met an unexpected problem" in page.text
