@@ -26,7 +26,7 @@ from app.services.records import (
     require_on_server,
     visible_cases,
 )
-from app.services.session_links import link_info
+from app.services.session_links import link_info, sees_link
 from app.services.views import (
     AccessInfo,
     CaseDetail,
@@ -197,7 +197,8 @@ def get_case(ctx: ServiceContext, *, case_id: int, need: Action = Action.READ) -
     ``need`` is what the page is about to offer (the upload page needs
     ``EDIT``, the delete page ``MANAGE``), so that it is refused up front.
     Who has access, and who could be given it, is filled in only for actors
-    who may manage the case; session links only for those who may open them.
+    who may manage the case; session links only for those who may open them
+    (a referee sees the links they opened, not those of other referees).
     """
     actor = ctx.actor
     with ctx.reading() as session:
@@ -219,7 +220,7 @@ def get_case(ctx: ServiceContext, *, case_id: int, need: Action = Action.READ) -
             rows = session.scalars(
                 select(SessionLink).where(SessionLink.case_id == case_id).order_by(SessionLink.id.desc())
             ).all()
-            links = [link_info(row) for row in rows]
+            links = [link_info(row) for row in rows if sees_link(actor, row)]
         access, candidates = ([], []) if not actor.may(Action.MANAGE) else _people(session, case)
         return CaseDetail(
             case=case_info(case),

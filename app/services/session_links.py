@@ -1,6 +1,8 @@
 """Journal-club session links: read-only access to one refit's results and checklist, for a limited time.
 
-A referee, coordinator or steward opens a link for a finished refit. Its key
+A referee, coordinator or steward opens a link for a finished refit; referees
+see and withdraw only the links they opened themselves (they need not learn
+who else reviews the case), coordinators and stewards all of them. Its key
 (256 random bits) is shown once and stored only as a digest; the link expires
 after the hours chosen (at most ``settings.session_link_max_hours``) and can be
 withdrawn at any time. Whoever holds the key sees the estimates, diagnostics,
@@ -16,13 +18,14 @@ from typing import NamedTuple
 from sqlalchemy import bindparam, select
 from sqlalchemy.orm import Session
 
+from app.auth.actors import Actor
 from app.auth.keys import digest, new_secret
 from app.auth.roles import Action
 from app.services import checklists
 from app.services.context import ServiceContext
 from app.services.errors import InvalidInput, NotFound, NotReady, Problem
 from app.services.records import load_case, load_refit, record_event, refit_info
-from app.services.views import ChecklistSection, FollowView, SessionLinkInfo, SessionLinkOpened
+from app.services.views import ChecklistSection, FollowedLink, FollowView, SessionLinkInfo, SessionLinkOpened
 from app.store.models import Case, Refit, SessionLink, utc_now
 
 MAX_LABEL_LENGTH = 200
@@ -56,6 +59,11 @@ def link_state(row: SessionLink, *, now: datetime | None = None) -> str:
     if row.revoked_at is not None:
         return "withdrawn"
     return "expired" if row.expires_at <= (now or utc_now()) else "open"
+
+
+def sees_link(actor: Actor, row: SessionLink) -> bool:
+    """Whether the actor may see (and withdraw) a link: those who manage the case all, others their own."""
+    return actor.may(Action.MANAGE) or (actor.user_id is not None and row.created_by_id == actor.user_id)
 
 
 def link_info(row: SessionLink) -> SessionLinkInfo:
@@ -95,6 +103,7 @@ def open_link(ctx: ServiceContext, *, case_id: int, refit_id: int, hours: int, l
             label=label,
             secret_sha256=digest(key),
             created_by=ctx.actor.name,
+            created_by_id=ctx.actor.user_id,
             created_at=now,
             expires_at=now + timedelta(hours=hours),
         )
@@ -116,7 +125,7 @@ def withdraw_link(ctx: ServiceContext, *, case_id: int, link_id: int) -> Session
     with ctx.transaction() as session:
         case = load_case(session, case_id, actor=ctx.actor, action=Action.SHARE)
         row = session.get(SessionLink, link_id)
-        if row is None or row.case_id != case_id:
+        if row is None or row.case_id != case_id or not sees_link(ctx.actor, row):
             raise NotFound(f"case {case_id} has no session link {link_id}")
         if row.revoked_at is None:
             row.revoked_at = utc_now()
@@ -137,7 +146,7 @@ def follow(ctx: ServiceContext, *, key: str) -> FollowView:
         return FollowView(
             case_title=refit.case.title,
             case_reference=refit.case.reference,
-            link=link_info(row),
+            link=FollowedLink(label=row.label, expires_at=row.expires_at),
             refit=refit_info(refit),
             findings=refit.findings or {},
             verdict=checklists.verdict_data(checklist),

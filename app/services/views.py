@@ -203,7 +203,7 @@ class CaseDetail(View):
     candidates: list[PersonInfo]
     """Referees and readers who could be given access (for those who may manage the case)."""
     links: list[SessionLinkInfo]
-    """Session links of the case (for those who may open them)."""
+    """Session links of the case: all of them for those who manage it, a referee's own for a referee."""
 
 
 class ColumnChoice(View):
@@ -341,12 +341,19 @@ class SessionLinkOpened(View):
     key: str
 
 
+class FollowedLink(View):
+    """What a session link says about itself to those who follow it (not who opened it)."""
+
+    label: str
+    expires_at: datetime
+
+
 class FollowView(View):
     """What a session link shows: one refit's results and checklist, read-only, without data or exports."""
 
     case_title: str
     case_reference: str
-    link: SessionLinkInfo
+    link: FollowedLink
     refit: RefitInfo
     findings: dict[str, Any]
     verdict: dict[str, Any]

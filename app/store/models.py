@@ -325,6 +325,8 @@ class SessionLink(Base):
     label: Mapped[str] = mapped_column(String(200), default="")
     secret_sha256: Mapped[str] = mapped_column(String(64))
     created_by: Mapped[str] = mapped_column(String(100))
+    created_by_id: Mapped[int | None] = mapped_column(ForeignKey("users.id", ondelete="SET NULL"))
+    """The account that opened the link (None for the server itself, or once the account is removed)."""
     created_at: Mapped[datetime] = mapped_column(default=utc_now)
     expires_at: Mapped[datetime]
     revoked_at: Mapped[datetime | None]

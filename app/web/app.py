@@ -90,7 +90,7 @@ def create_app(settings: Settings, *, first_run_key: str | None = None) -> FastA
     app.include_router(people_pages.router)
     app.include_router(follow_pages.router)
     install_error_handlers(app)
-    app.add_middleware(SecurityHeaders)
+    app.add_middleware(SecurityHeaders, https=settings.secure_cookies)
     app.state.paths = RoutePaths(app)
     return app
 
@@ -98,12 +98,15 @@ def create_app(settings: Settings, *, first_run_key: str | None = None) -> FastA
 class SecurityHeaders:
     """Adds a strict content security policy and hardening headers to every response.
 
-    Pages and API answers are never stored by the browser or a proxy
-    (``no-store``): they hold confidential manuscript data. Static files may be.
+    Pages, figures and API answers are never stored by the browser or a proxy
+    (``no-store``): they hold confidential manuscript data, and a lab computer
+    is shared. Static files may be. A server reached through HTTPS (``https``)
+    also tells browsers to use nothing else.
     """
 
-    def __init__(self, app: ASGIApp) -> None:
+    def __init__(self, app: ASGIApp, *, https: bool = False) -> None:
         self.app = app
+        self.https = https
 
     async def __call__(self, scope: Scope, receive: Receive, send: Send) -> None:
         if scope["type"] != "http":
@@ -125,6 +128,8 @@ class SecurityHeaders:
                 ]
                 if not scope["path"].startswith(STATIC_PREFIX) and b"cache-control" not in present:
                     headers.append((b"cache-control", b"no-store"))
+                if self.https:
+                    headers.append((b"strict-transport-security", b"max-age=31536000"))
                 message["headers"] = headers
             await send(message)
 

@@ -101,7 +101,7 @@ def follow_figure(request: Request, key: str, figure: Literal["estimates", "firs
     )
     if svg is None:
         raise NotFound(f"this refit has no {figure} figure")
-    return Response(svg, media_type="image/svg+xml", headers={"Cache-Control": "no-store"})
+    return Response(svg, media_type="image/svg+xml")
 
 
 def presentation_sections(view: FollowView) -> list[ChecklistSection]:

@@ -132,7 +132,7 @@ async def services(request: Request, actor: Annotated[Actor, Depends(current_act
     """The service context acting as the request's person, after the form-token check of a state-changing request."""
     if request.method not in csrf.SAFE_METHODS and request.state.csrf_token is not None:
         given = request.headers.get(csrf.HEADER)
-        if given is None and _is_form(request):
+        if given is None and _is_plain_form(request):
             value = (await request.form()).get(csrf.FIELD)
             given = value if isinstance(value, str) else None
         check_form_token(request, given)
@@ -187,6 +187,6 @@ def check_pre_session_token(request: Request, given: str | None) -> None:
         raise FormTokenRefused("this form has expired or did not come from this server; reload the page and try again")
 
 
-def _is_form(request: Request) -> bool:
-    content_type = request.headers.get("content-type", "")
-    return content_type.startswith(("application/x-www-form-urlencoded", "multipart/form-data"))
+def _is_plain_form(request: Request) -> bool:
+    """A urlencoded form, whose token field is read here; multipart bodies are uploads, checked as they stream."""
+    return request.headers.get("content-type", "").startswith("application/x-www-form-urlencoded")

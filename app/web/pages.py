@@ -312,7 +312,7 @@ def refit_figure(
     svg = request.app.state.figures.get_or_render((refit_id, figure), draw)
     if svg is None:
         raise NotFound(f"refit {refit_id} has no {figure} figure")
-    return Response(svg, media_type="image/svg+xml", headers={"Cache-Control": "private, max-age=86400"})
+    return Response(svg, media_type="image/svg+xml")
 
 
 # -- checklist -------------------------------------------------------------------

@@ -94,9 +94,9 @@ def may(context: Any, action: str, case: Any = None) -> bool:
 
 @pass_context
 def may_on_server(context: Any, action: str) -> bool:
-    """Whether the page's viewer may do a server-wide action (a :class:`~app.auth.roles.ServerAction` value)."""
+    """Whether the page's viewer may do a server-wide action (a :class:`~app.auth.roles.ServerAction` name)."""
     actor = viewer(context)
-    return actor is not None and actor.may_on_server(ServerAction(action))
+    return actor is not None and actor.may_on_server(ServerAction[action])
 
 
 @pass_context

@@ -118,11 +118,15 @@ def upgrade() -> None:
         sa.Column("label", sa.String(length=200), nullable=False),
         sa.Column("secret_sha256", sa.String(length=64), nullable=False),
         sa.Column("created_by", sa.String(length=100), nullable=False),
+        sa.Column("created_by_id", sa.Integer(), nullable=True),
         sa.Column("created_at", sa.DateTime(), nullable=False),
         sa.Column("expires_at", sa.DateTime(), nullable=False),
         sa.Column("revoked_at", sa.DateTime(), nullable=True),
         sa.ForeignKeyConstraint(
             ["case_id"], ["cases.id"], name=op.f("fk_session_links_case_id_cases"), ondelete="CASCADE"
+        ),
+        sa.ForeignKeyConstraint(
+            ["created_by_id"], ["users.id"], name=op.f("fk_session_links_created_by_id_users"), ondelete="SET NULL"
         ),
         sa.ForeignKeyConstraint(
             ["refit_id"], ["refits.id"], name=op.f("fk_session_links_refit_id_refits"), ondelete="CASCADE"

@@ -31,7 +31,7 @@ def test_a_signed_cookie_comes_back_only_unchanged_and_in_time() -> None:
     signer = CookieSigner(b"k" * 32, purpose="session")
     signed = signer.sign("the-secret")
     assert signer.unsign(signed, max_age_seconds=60) == "the-secret"
-    assert signer.unsign(signed[:-1] + ("A" if signed[-1] != "A" else "B"), max_age_seconds=60) is None
+    assert signer.unsign(signed.replace("the-secret", "the-secreT"), max_age_seconds=60) is None
     assert CookieSigner(b"o" * 32, purpose="session").unsign(signed, max_age_seconds=60) is None
     assert CookieSigner(b"k" * 32, purpose="form").unsign(signed, max_age_seconds=60) is None
     assert signer.unsign(None, max_age_seconds=60) is None

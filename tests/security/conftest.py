@@ -80,8 +80,11 @@ class Shared:
                 access.grant_access(self.ctx, case_id=case_id, user_id=self.user_ids[name])
         return case_id
 
-    def fresh_link(self, case: CaseIds) -> int:
-        return session_links.open_link(self.ctx, case_id=case.case_id, refit_id=case.refit_id, hours=1).link.id
+    def fresh_link(self, case: CaseIds, *, opener: str) -> int:
+        """A new link to the case's refit, opened by ``opener`` where they may open one (else by the server)."""
+        may_open = opener in ("steward", "coordinator") or (opener == "referee" and case == self.own)
+        ctx = self.as_user(opener) if may_open else self.ctx
+        return session_links.open_link(ctx, case_id=case.case_id, refit_id=case.refit_id, hours=1).link.id
 
     def fresh_user(self) -> int:
         return add_account(self.ctx, self.unique("throwaway"), "referee")

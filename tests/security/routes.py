@@ -71,7 +71,7 @@ def request_for(shared: Shared, endpoint: Endpoint, principal: str, which: str) 
         "key": lambda: shared.link_key,
         "step": lambda: 0,
         "user_id": lambda: _user_param(shared, name, ids),
-        "link_id": lambda: shared.fresh_link(ids),
+        "link_id": lambda: shared.fresh_link(ids, opener=user),
         "token_id": lambda: shared.fresh_token(user) if user != "anonymous" else 1,
     }
     path = endpoint.path.format(**{key: make() for key, make in params.items() if "{" + key + "}" in endpoint.path})

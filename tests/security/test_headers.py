@@ -8,8 +8,9 @@ from pathlib import Path
 import pytest
 from fastapi.testclient import TestClient
 
+from app.web.app import create_app
 from app.web.templating import TEMPLATES_DIR, build_templates
-from tests.security.conftest import Shared
+from tests.security.conftest import Shared, security_settings
 
 
 def responses(shared: Shared) -> dict[str, object]:
@@ -47,7 +48,7 @@ def test_confidential_answers_are_never_stored_by_the_browser(shared: Shared) ->
         cache = response.headers.get("cache-control", "")  # type: ignore[attr-defined]
         if kind == "static":
             assert "no-store" not in cache
-        elif kind != "figure":
+        else:
             assert cache == "no-store", kind
 
 
@@ -73,3 +74,10 @@ def test_markup_reaches_pages_only_escaped(shared: Shared) -> None:
 def test_no_template_loads_anything_from_elsewhere() -> None:
     for path in Path(TEMPLATES_DIR).glob("*.html"):
         assert not re.search(r"""(?:src|href|action)\s*=\s*["'](?:https?:)?//""", path.read_text()), path.name
+
+
+def test_a_server_behind_https_tells_browsers_to_keep_to_it(tmp_path: Path) -> None:
+    with TestClient(create_app(security_settings(tmp_path / "data", secure_cookies=True))) as client:
+        assert client.get("/sign-in").headers["strict-transport-security"] == "max-age=31536000"
+    with TestClient(create_app(security_settings(tmp_path / "plain"))) as client:
+        assert "strict-transport-security" not in client.get("/sign-in").headers

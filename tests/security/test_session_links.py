@@ -9,9 +9,12 @@ import pytest
 from fastapi.testclient import TestClient
 from sqlalchemy import update
 
-from app.services import checklists, session_links
-from app.services.errors import NotReady
+from app.auth.actors import Actor
+from app.auth.roles import Role
+from app.services import access, cases, checklists, session_links
+from app.services.errors import NotFound, NotReady
 from app.store.models import Refit, SessionLink, utc_now
+from tests.accounts import add_account
 from tests.security.conftest import Shared
 
 
@@ -55,6 +58,7 @@ def test_a_link_offers_no_form_no_download_no_data_and_no_way_into_the_case(shar
             assert forbidden not in text, (path, forbidden)
     twin = club.get(f"/api/v1/follow/{key}").json()
     assert "profile" not in twin and "datasets" not in twin
+    assert set(twin["link"]) == {"label", "expires_at"}  # not who opened it
 
 
 def test_the_presentation_steps_through_one_section_at_a_time(shared: Shared, club: TestClient) -> None:
@@ -130,8 +134,26 @@ def test_a_link_needs_a_finished_refit(shared: Shared) -> None:
 
 def test_the_case_page_lists_links_with_their_state_but_never_their_key(shared: Shared) -> None:
     opened = session_links.open_link(
-        shared.ctx, case_id=shared.own.case_id, refit_id=shared.own.refit_id, hours=1, label="Methods club"
+        shared.as_user("referee"), case_id=shared.own.case_id, refit_id=shared.own.refit_id, hours=1, label="Methods club"
     )
     page = shared.clients["referee"].get(f"/cases/{shared.own.case_id}").text
     assert f"Link {opened.link.id}: Methods club" in page
     assert opened.key not in page
+
+
+def test_a_referee_sees_and_withdraws_only_the_links_they_opened(shared: Shared) -> None:
+    colleague = shared.unique("colleague")
+    colleague_id = add_account(shared.ctx, colleague, "referee")
+    access.grant_access(shared.ctx, case_id=shared.own.case_id, user_id=colleague_id)
+    as_colleague = shared.ctx.acting_as(Actor(name=colleague, kind="user", role=Role.REFEREE, user_id=colleague_id))
+    theirs = session_links.open_link(as_colleague, case_id=shared.own.case_id, refit_id=shared.own.refit_id, hours=1)
+    mine = session_links.open_link(shared.as_user("referee"), case_id=shared.own.case_id, refit_id=shared.own.refit_id, hours=1)
+
+    seen = {link.id for link in cases.get_case(shared.as_user("referee"), case_id=shared.own.case_id).links}
+
+    assert mine.link.id in seen and theirs.link.id not in seen
+    assert colleague not in shared.clients["referee"].get(f"/cases/{shared.own.case_id}").text
+    with pytest.raises(NotFound):
+        session_links.withdraw_link(shared.as_user("referee"), case_id=shared.own.case_id, link_id=theirs.link.id)
+    coordinator_sees = {link.id for link in cases.get_case(shared.as_user("coordinator"), case_id=shared.own.case_id).links}
+    assert {mine.link.id, theirs.link.id} <= coordinator_sees
