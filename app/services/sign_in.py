@@ -17,7 +17,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from datetime import datetime, timedelta
 
-from sqlalchemy import bindparam, func, or_, select
+from sqlalchemy import bindparam, delete, func, or_, select
 from sqlalchemy.orm import Session
 
 from app.auth.actors import Actor
@@ -172,7 +172,9 @@ def complete_first_run(ctx: ServiceContext, *, name: str, full_name: str, passwo
 
 
 def _open_session(ctx: ServiceContext, session: Session, user: User, *, address: str) -> SignedIn:
+    """A new web session for ``user``; sessions that have expired (anyone's) are cleared out on the way."""
     now = utc_now()
+    session.execute(delete(WebSession).where(WebSession.expires_at <= now))
     secret = new_secret()
     row = WebSession(
         user_id=user.id,

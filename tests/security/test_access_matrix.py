@@ -42,8 +42,7 @@ class Rule:
 
     ``scope`` is ``public`` (the same answer ``status`` for everyone),
     ``signed_in`` (any signed-in person), ``server`` (a server-wide ``need``) or
-    ``case`` (``need`` on the case in the path). ``pages_only`` routes need the
-    browser's sign-in (an API token counts for nobody there).
+    ``case`` (``need`` on the case in the path).
     """
 
     scope: str

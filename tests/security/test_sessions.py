@@ -232,3 +232,14 @@ def test_the_first_run_form_keeps_what_was_typed_when_the_passwords_differ(serve
         answer = client.post("/welcome/key", data=fields)
         assert answer.status_code == 422
         assert "the two passwords differ" in answer.text and 'value="ada"' in answer.text
+
+
+def test_expired_sessions_are_cleared_out_when_someone_signs_in(server: Callable[..., Any]) -> None:
+    with server() as client:
+        sign_in(client, "referee")
+        ctx = client.app.state.services  # type: ignore[attr-defined]
+        with ctx.transaction() as session:
+            session.execute(update(WebSession).values(expires_at=utc_now() - timedelta(seconds=1)))
+        attempt(TestClient(client.app), "steward", PASSWORD)
+        with ctx.reading() as session:
+            assert len(session.scalars(select(WebSession)).all()) == 1
