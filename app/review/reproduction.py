@@ -105,12 +105,10 @@ class Comparison:
 
 def compare_estimate(view: FindingsView) -> Comparison | None:
     """The claimed estimate against the refit of the claimed estimator (None when none is printed)."""
-    printed = printed_number(view.claimed.get("estimate"))
-    if printed is None:
+    if (pair := _printed_and_refit(view, "estimate")) is None:
         return None
+    printed, refit = pair
     estimator, term = view.claimed_estimator, view.focal_term
-    row = view.row(estimator, term)
-    refit = as_number(row.get("estimate")) if row else None
     compared = f"{view.estimator_name(estimator)} estimate of {term}"
     if printed.covers(refit):
         return Comparison("estimate", printed.text, refit, True, compared, [])
@@ -129,12 +127,10 @@ def compare_estimate(view: FindingsView) -> Comparison | None:
 
 def compare_std_error(view: FindingsView) -> Comparison | None:
     """The claimed standard error against the refit's, with the variance estimators that would match."""
-    printed = printed_number(view.claimed.get("std_error"))
-    if printed is None:
+    if (pair := _printed_and_refit(view, "std_error")) is None:
         return None
+    printed, refit = pair
     estimator, term = view.claimed_estimator, view.focal_term
-    row = view.row(estimator, term)
-    refit = as_number(row.get("std_error")) if row else None
     compared = f"{view.estimator_name(estimator)} standard error of {term} ({view.variance_label})"
     if printed.covers(refit):
         return Comparison("std_error", printed.text, refit, True, compared, [])
@@ -147,6 +143,15 @@ def compare_std_error(view: FindingsView) -> Comparison | None:
             "clustered standard errors, or another small-sample correction, would differ. Ask which the table reports."
         )
     return Comparison("std_error", printed.text, refit, False, compared, causes, near_miss=printed.near(refit))
+
+
+def _printed_and_refit(view: FindingsView, quantity: str) -> tuple[PrintedNumber, float | None] | None:
+    """The printed ``quantity`` of the focal coefficient and the claimed estimator's refit of it (None when not printed)."""
+    printed = printed_number(view.claimed.get(quantity))
+    if printed is None:
+        return None
+    row = view.row(view.claimed_estimator, view.focal_term)
+    return printed, as_number(row.get(quantity)) if row else None
 
 
 def compare_n_obs(view: FindingsView) -> Comparison | None:

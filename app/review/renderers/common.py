@@ -40,13 +40,13 @@ class EstimateLine:
     claimed: bool
 
 
-def estimate_lines(view: FindingsView) -> list[EstimateLine]:
-    """Every estimator's row for every focal coefficient, claimed estimator marked."""
-    lines = []
+def estimate_lines_by_term(view: FindingsView) -> dict[str, list[EstimateLine]]:
+    """Every estimator's row for each focal coefficient that has any, claimed estimator marked."""
+    by_term: dict[str, list[EstimateLine]] = {}
     for term in view.focal_terms:
         for row in view.rows_for(term):
             code = str(row.get("estimator"))
-            lines.append(
+            by_term.setdefault(term, []).append(
                 EstimateLine(
                     term=term,
                     code=code,
@@ -59,7 +59,7 @@ def estimate_lines(view: FindingsView) -> list[EstimateLine]:
                     claimed=code == view.claimed_estimator and term == view.focal_term,
                 )
             )
-    return lines
+    return by_term
 
 
 def sample_lines(view: FindingsView) -> list[str]:

@@ -19,7 +19,7 @@ from app.review.renderers.common import (
     PRODUCT,
     awaiting_judgement,
     claimed_sentence,
-    estimate_lines,
+    estimate_lines_by_term,
     interval_text,
     key_diagnostics,
     model_lines,
@@ -103,15 +103,12 @@ def render_html(findings: Mapping[str, Any], checklist: Checklist, *, data_file_
 
 
 def _estimates(view: FindingsView) -> list[str]:
-    by_term: dict[str, list] = {}
-    for line in estimate_lines(view):
-        by_term.setdefault(line.term, []).append(line)
     out = []
     header = tag(
         "tr",
         [tag("th", text(h)) for h in ("Estimator", "Estimate", "Std. error", "95% interval", "p-value")],
     )
-    for term, lines in by_term.items():
+    for term, lines in estimate_lines_by_term(view).items():
         rows = [
             tag(
                 "tr",

@@ -20,7 +20,7 @@ from app.review.renderers.common import (
     PRODUCT,
     awaiting_judgement,
     claimed_sentence,
-    estimate_lines,
+    estimate_lines_by_term,
     interval_text,
     key_diagnostics,
     model_lines,
@@ -101,11 +101,8 @@ def _flag_count(checklist: Checklist) -> str:
 
 
 def _estimates_table(view: FindingsView) -> list[str]:
-    lines_by_term: dict[str, list] = {}
-    for line in estimate_lines(view):
-        lines_by_term.setdefault(line.term, []).append(line)
     out = []
-    for term, lines in lines_by_term.items():
+    for term, lines in estimate_lines_by_term(view).items():
         out += [
             f"## Estimates of the effect of {inline(term)}",
             "",

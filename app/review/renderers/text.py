@@ -19,7 +19,7 @@ from app.review.renderers.common import (
     CAUTION,
     PRODUCT,
     claimed_sentence,
-    estimate_lines,
+    estimate_lines_by_term,
     interval_text,
     key_diagnostics,
     model_lines,
@@ -78,11 +78,8 @@ def render_text(findings: Mapping[str, Any], checklist: Checklist, *, data_file_
 
 
 def _estimates(view: FindingsView) -> list[str]:
-    lines_by_term: dict[str, list] = {}
-    for line in estimate_lines(view):
-        lines_by_term.setdefault(line.term, []).append(line)
     out: list[str] = []
-    for term, lines in lines_by_term.items():
+    for term, lines in estimate_lines_by_term(view).items():
         out += heading(f"Effect of {term} on {view.outcome}")
         out.append(f"  standard errors: {view.variance_label}")
         width = min(max(len("estimator"), *(len(line.name) for line in lines)), NAME_WIDTH) + 2

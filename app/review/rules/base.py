@@ -90,6 +90,11 @@ def needs_instruments(view: FindingsView) -> Outcome | None:
     return not_applicable("The claim names no excluded instruments, so there is no instrument to check.")
 
 
+def needs_instrument_diagnostic(view: FindingsView, found: Lookup) -> Outcome | None:
+    """Not applicable when the claim names no excluded instruments or the diagnostic ``found`` is unavailable, else None."""
+    return needs_instruments(view) or unavailable(found)
+
+
 def significant(p: float | None) -> bool:
     """True when a p-value is below :data:`SIGNIFICANCE`."""
     return p is not None and p < SIGNIFICANCE

@@ -35,10 +35,10 @@ from app.review.rules.base import (
     SIGNIFICANCE,
     Outcome,
     Rule,
+    needs_instrument_diagnostic,
     needs_instruments,
     not_applicable,
     significant,
-    unavailable,
 )
 from app.review.view import FindingsView
 
@@ -92,10 +92,8 @@ def assess_as_if_random(view: FindingsView) -> Outcome:
 
 
 def assess_balance(view: FindingsView) -> Outcome:
-    if (skip := needs_instruments(view)) is not None:
-        return skip
     found = view.lookup("instrument_balance")
-    if (skip := unavailable(found)) is not None:
+    if (skip := needs_instrument_diagnostic(view, found)) is not None:
         return skip
     checks = _balance_checks(found.value)
     if not checks:
@@ -130,10 +128,8 @@ def _balance_checks(data: Any) -> list[Mapping[str, Any]]:
 
 
 def assess_direct_effect(view: FindingsView) -> Outcome:
-    if (skip := needs_instruments(view)) is not None:
-        return skip
     found = view.lookup("plausibly_exogenous")
-    if (skip := unavailable(found)) is not None:
+    if (skip := needs_instrument_diagnostic(view, found)) is not None:
         return skip
     entries = [e for e in found.value.get("by_regressor") or [] if isinstance(e, Mapping)]
     entry = next((e for e in entries if e.get("regressor") == view.focal_term), entries[0] if entries else None)

@@ -32,7 +32,7 @@ from app.review.rules.base import (
     SIGNIFICANCE,
     Outcome,
     Rule,
-    needs_instruments,
+    needs_instrument_diagnostic,
     not_applicable,
     significant,
     unavailable,
@@ -50,10 +50,8 @@ SELECTION_RATIO = 1.0
 
 
 def assess_naive_vs_instrumented(view: FindingsView) -> Outcome:
-    if (skip := needs_instruments(view)) is not None:
-        return skip
     found = view.lookup("control_function")
-    if (skip := unavailable(found)) is not None:
+    if (skip := needs_instrument_diagnostic(view, found)) is not None:
         return skip
     test = found.value
     p = as_number(test.get("p_value"))

@@ -34,7 +34,15 @@ from typing import Any
 
 from app.estimation.inference import chi2_p
 from app.review.formatting import as_number, number, p_value, statistic
-from app.review.rules.base import SIGNIFICANCE, Outcome, Rule, needs_instruments, not_applicable, significant, unavailable
+from app.review.rules.base import (
+    SIGNIFICANCE,
+    Outcome,
+    Rule,
+    needs_instrument_diagnostic,
+    not_applicable,
+    significant,
+    unavailable,
+)
 from app.review.view import FindingsView, Lookup
 
 SECTION = "overidentification"
@@ -54,10 +62,8 @@ def _describe(view: FindingsView, found: Lookup) -> str:
 
 
 def assess_joint_test(view: FindingsView) -> Outcome:
-    if (skip := needs_instruments(view)) is not None:
-        return skip
     found = joint_test(view)
-    if (skip := unavailable(found)) is not None:
+    if (skip := needs_instrument_diagnostic(view, found)) is not None:
         return skip
     evidence = _describe(view, found)
     if significant(as_number(found.value.get("p_value"))):
@@ -73,10 +79,8 @@ def assess_joint_test(view: FindingsView) -> Outcome:
 
 
 def assess_blamed_instrument(view: FindingsView) -> Outcome:
-    if (skip := needs_instruments(view)) is not None:
-        return skip
     joint = joint_test(view)
-    if (skip := unavailable(joint)) is not None:
+    if (skip := needs_instrument_diagnostic(view, joint)) is not None:
         return skip
     joint_rejects = significant(as_number(joint.value.get("p_value")))
     if len(view.instruments) - len(view.focal_terms) == 1:

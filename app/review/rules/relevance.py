@@ -36,6 +36,7 @@ from app.review.rules.base import (
     SIGNIFICANCE,
     Outcome,
     Rule,
+    needs_instrument_diagnostic,
     needs_instruments,
     not_applicable,
     significant,
@@ -61,10 +62,8 @@ STOCK_YOGO_MAX_SIZE = 0.10
 
 
 def assess_first_stage_f(view: FindingsView) -> Outcome:
-    if (skip := needs_instruments(view)) is not None:
-        return skip
     found = view.lookup("first_stage")
-    if (skip := unavailable(found)) is not None:
+    if (skip := needs_instrument_diagnostic(view, found)) is not None:
         return skip
     entries = view.first_stages()
     if not entries:
@@ -124,10 +123,8 @@ def _same_share(value: object, share: float) -> bool:
 
 
 def assess_effective_f(view: FindingsView) -> Outcome:
-    if (skip := needs_instruments(view)) is not None:
-        return skip
     found = view.lookup("effective_f")
-    if (skip := unavailable(found)) is not None:
+    if (skip := needs_instrument_diagnostic(view, found)) is not None:
         return skip
     entry = found.value
     value = as_number(entry.get("statistic"))
@@ -222,10 +219,8 @@ def _weakest_conditional(view: FindingsView) -> tuple[str, float] | None:
 
 
 def assess_identification(view: FindingsView) -> Outcome:
-    if (skip := needs_instruments(view)) is not None:
-        return skip
     found = view.lookup("kleibergen_paap_rk_lm")
-    if (skip := unavailable(found)) is not None:
+    if (skip := needs_instrument_diagnostic(view, found)) is not None:
         return skip
     test = found.value
     p = as_number(test.get("p_value"))
