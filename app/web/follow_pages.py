@@ -37,21 +37,13 @@ def follow_page(request: Request, key: str) -> Response:
 
     def build() -> HTMLResponse:
         view = session_links.follow(ctx, key=key)
-        findings = view.findings
-        estimate_panels = figures.estimate_panels(findings)
-        first_stage_panels = figures.first_stage_panels(findings)
         return render(
             request,
             "follow_results.html",
             json_twin=_twin(request, key),
             page=view,
             key=key,
-            estimate_tables=presenters.estimate_tables(findings),
-            estimate_panels=estimate_panels,
-            estimate_alt=figures.describe_panels(estimate_panels),
-            first_stage_panels=first_stage_panels,
-            first_stage_alt=figures.describe_panels(first_stage_panels),
-            diagnostic_groups=presenters.group_diagnostics(findings.get("diagnostics") or {}),
+            **presenters.results_body(view.findings),
         )
 
     return link_page_cached(request, ctx, key=key, render=build)

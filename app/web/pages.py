@@ -270,21 +270,13 @@ def refit_page(request: Request, ctx: Services, case_id: RowId, refit_id: RowId)
     def build() -> HTMLResponse:
         results = refits.get_refit(ctx, case_id=case_id, refit_id=refit_id)
         twin = str(request.app.url_path_for("api_get_refit", case_id=str(case_id), refit_id=str(refit_id)))
-        findings = results.findings or {}
-        estimate_panels = figures.estimate_panels(findings)
-        first_stage_panels = figures.first_stage_panels(findings)
         return render(
             request,
             "refit.html",
             json_twin=twin,
             page=results,
             stages=refits.STAGES,
-            estimate_tables=presenters.estimate_tables(findings),
-            estimate_panels=estimate_panels,
-            estimate_alt=figures.describe_panels(estimate_panels),
-            first_stage_panels=first_stage_panels,
-            first_stage_alt=figures.describe_panels(first_stage_panels),
-            diagnostic_groups=presenters.group_diagnostics(findings.get("diagnostics") or {}),
+            **presenters.results_body(results.findings or {}),
         )
 
     return case_page_cached(request, ctx, case_id=case_id, render=build)

@@ -7,7 +7,7 @@ Every other form here needs a web session and its form token.
 
 from __future__ import annotations
 
-from typing import Annotated
+from typing import Annotated, Any
 
 from fastapi import APIRouter, Depends, Form, Request
 from fastapi.responses import HTMLResponse, Response
@@ -101,28 +101,36 @@ def _sign_in_form(
     notice: str | None = None,
     status_code: int = 200,
 ) -> HTMLResponse:
-    form_cookie = new_form_cookie()
-    response = render(
+    return _pre_session_form(
         request,
         "sign_in.html",
-        json_twin=None,
         next_path=next_path,
         name=name,
         problem=problem,
         notice=notice,
-        form_token=pre_session_token(request, form_cookie),
         first_run_pending=request.app.state.first_run is not None,
         status_code=status_code,
     )
-    _set_form_cookie(request, response, form_cookie)
-    return response
 
 
-def _set_form_cookie(request: Request, response: Response, value: str) -> None:
+def _pre_session_form(request: Request, template: str, *, status_code: int, **context: Any) -> HTMLResponse:
+    """A form shown before sign-in: its form token is tied to a new short-lived cookie set with it (double submit)."""
+    form_cookie = new_form_cookie()
+    response = render(
+        request,
+        template,
+        json_twin=None,
+        form_token=pre_session_token(request, form_cookie),
+        status_code=status_code,
+        **context,
+    )
     keys: ServerKeys = request.app.state.keys
     response.set_cookie(
-        FORM_COOKIE, keys.forms.sign(value), **keys.cookies.attributes(max_age=FORM_COOKIE_SECONDS, same_site="strict")
+        FORM_COOKIE,
+        keys.forms.sign(form_cookie),
+        **keys.cookies.attributes(max_age=FORM_COOKIE_SECONDS, same_site="strict"),
     )
+    return response
 
 
 def _signed_in(request: Request, response: Response, signed_in: sign_in.SignedIn) -> Response:
@@ -186,19 +194,9 @@ def _check_first_run_key(request: Request, key: str) -> FirstRunKey:
 def _first_run_form(
     request: Request, *, key: str, values: dict[str, str], problems: list[Problem], status_code: int = 200
 ) -> HTMLResponse:
-    form_cookie = new_form_cookie()
-    response = render(
-        request,
-        "first_run.html",
-        json_twin=None,
-        key=key,
-        values=values,
-        problems=problems,
-        form_token=pre_session_token(request, form_cookie),
-        status_code=status_code,
+    return _pre_session_form(
+        request, "first_run.html", key=key, values=values, problems=problems, status_code=status_code
     )
-    _set_form_cookie(request, response, form_cookie)
-    return response
 
 
 # -- one's own account ---------------------------------------------------------------------

@@ -5,6 +5,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any
 
+from app.web import figures
 from app.web.labels import DIAGNOSTIC_GROUPS, ESTIMATORS, OTHER_DIAGNOSTICS
 
 RESULT_FIELDS = frozenset(
@@ -89,6 +90,24 @@ def estimate_tables(findings: dict[str, Any]) -> list[EstimateTable]:
             )
         tables.append(EstimateTable(term=term, outcome=str(findings.get("outcome", "")), claimed=line, lines=lines))
     return tables
+
+
+def results_body(findings: dict[str, Any]) -> dict[str, Any]:
+    """Everything ``_results_body.html`` needs besides the findings: tables, figure panels and their words, groups.
+
+    The refit page and a session link's results page show the same body, so
+    both take their template values from here.
+    """
+    estimate_panels = figures.estimate_panels(findings)
+    first_stage_panels = figures.first_stage_panels(findings)
+    return {
+        "estimate_tables": estimate_tables(findings),
+        "estimate_panels": estimate_panels,
+        "estimate_alt": figures.describe_panels(estimate_panels),
+        "first_stage_panels": first_stage_panels,
+        "first_stage_alt": figures.describe_panels(first_stage_panels),
+        "diagnostic_groups": group_diagnostics(findings.get("diagnostics") or {}),
+    }
 
 
 @dataclass(frozen=True)
