@@ -28,8 +28,8 @@ import os
 import secrets
 import shutil
 import sqlite3
-from collections.abc import Iterable
-from contextlib import closing
+from collections.abc import Iterable, Iterator
+from contextlib import closing, contextmanager
 from datetime import UTC, datetime
 from pathlib import Path
 from typing import Any
@@ -56,9 +56,7 @@ def backup(settings: Settings, *, target: Path) -> BackupReport:
     if target.exists():
         raise BackupError(f"{target} already exists; choose a new folder for the backup")
     target.parent.mkdir(parents=True, exist_ok=True)
-    staging = target.parent / f".{target.name}.partial-{secrets.token_hex(4)}"
-    staging.mkdir(mode=0o700)
-    try:
+    with _staging_folder(target, purpose="partial") as staging:
         for _ in range(COPY_ATTEMPTS):
             copy = staging / DATABASE_FILE
             copy.unlink(missing_ok=True)
@@ -80,9 +78,6 @@ def backup(settings: Settings, *, target: Path) -> BackupReport:
         _write_json(staging / MANIFEST, manifest)
         _fsync_tree(staging)
         os.rename(staging, target)
-    except BaseException:
-        shutil.rmtree(staging, ignore_errors=True)
-        raise
     return BackupReport(
         folder=str(target),
         schema_revision=manifest["schema_revision"],
@@ -110,9 +105,7 @@ def restore(settings: Settings, *, source: Path, replace: bool = False) -> Resto
         if not replace:
             raise BackupError(f"{data_dir} already holds data; pass --replace to move it aside and restore")
     data_dir.parent.mkdir(parents=True, exist_ok=True)
-    staging = data_dir.parent / f".{data_dir.name}.restoring-{secrets.token_hex(4)}"
-    staging.mkdir(mode=0o700)
-    try:
+    with _staging_folder(data_dir, purpose="restoring") as staging:
         _copy_verified(source / DATABASE_FILE, staging / DATABASE_FILE, manifest["database"]["sha256"])
         for entry in manifest["files"]:
             sha256 = entry["sha256"]
@@ -127,9 +120,6 @@ def restore(settings: Settings, *, source: Path, replace: bool = False) -> Resto
             else:
                 data_dir.rmdir()
         os.rename(staging, data_dir)
-    except BaseException:
-        shutil.rmtree(staging, ignore_errors=True)
-        raise
     return RestoreReport(
         data_dir=str(data_dir),
         schema_revision=manifest["schema_revision"],
@@ -158,6 +148,21 @@ def verify(source: Path) -> dict[str, Any]:
         if not path.is_file() or _hash_file(path) != entry["sha256"]:
             raise BackupError(f"the stored file {entry['sha256']} in {source} is missing or damaged")
     return manifest
+
+
+@contextmanager
+def _staging_folder(final: Path, *, purpose: str) -> Iterator[Path]:
+    """A new private folder beside ``final`` to fill and then rename to it; removed again if anything fails.
+
+    A backup or a restored data directory thus appears whole or not at all.
+    """
+    staging = final.parent / f".{final.name}.{purpose}-{secrets.token_hex(4)}"
+    staging.mkdir(mode=0o700)
+    try:
+        yield staging
+    except BaseException:
+        shutil.rmtree(staging, ignore_errors=True)
+        raise
 
 
 def _read_only(database: Path) -> sqlite3.Connection:

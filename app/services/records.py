@@ -18,6 +18,7 @@ case (sign-ins, accounts, deletions) by :func:`record_audit`.
 from __future__ import annotations
 
 from datetime import datetime, timedelta
+from typing import TypeVar
 
 from sqlalchemy import ColumnElement, select, true, update
 from sqlalchemy.orm import Session
@@ -27,6 +28,9 @@ from app.auth.roles import ACTION_WORDS, Action, ServerAction, role_label
 from app.services.errors import CaseClosed, Forbidden, NotFound
 from app.services.views import CaseInfo, ClaimInfo, DatasetInfo, EventInfo, RefitInfo
 from app.store.models import AuditEntry, Case, CaseAccess, Claim, Dataset, Event, Refit, utc_now
+
+CaseRow = TypeVar("CaseRow", Dataset, Claim, Refit)
+"""A row that belongs to one case (it has a ``case_id``)."""
 
 
 def load_case(session: Session, case_id: int, *, actor: Actor, action: Action = Action.READ) -> Case:
@@ -77,29 +81,28 @@ def load_dataset(
     session: Session, case_id: int, dataset_id: int, *, actor: Actor, action: Action = Action.READ
 ) -> Dataset:
     """A dataset version of this case, or :class:`NotFound`."""
-    load_case(session, case_id, actor=actor, action=action)
-    dataset = session.get(Dataset, dataset_id)
-    if dataset is None or dataset.case_id != case_id:
-        raise NotFound(f"case {case_id} has no dataset {dataset_id}")
-    return dataset
+    return _load_in_case(session, Dataset, case_id, dataset_id, noun="dataset", actor=actor, action=action)
 
 
 def load_claim(session: Session, case_id: int, claim_id: int, *, actor: Actor, action: Action = Action.READ) -> Claim:
     """A claim version of this case, or :class:`NotFound`."""
-    load_case(session, case_id, actor=actor, action=action)
-    claim = session.get(Claim, claim_id)
-    if claim is None or claim.case_id != case_id:
-        raise NotFound(f"case {case_id} has no claim {claim_id}")
-    return claim
+    return _load_in_case(session, Claim, case_id, claim_id, noun="claim", actor=actor, action=action)
 
 
 def load_refit(session: Session, case_id: int, refit_id: int, *, actor: Actor, action: Action = Action.READ) -> Refit:
     """A refit of this case, or :class:`NotFound`."""
+    return _load_in_case(session, Refit, case_id, refit_id, noun="refit", actor=actor, action=action)
+
+
+def _load_in_case(
+    session: Session, model: type[CaseRow], case_id: int, row_id: int, *, noun: str, actor: Actor, action: Action
+) -> CaseRow:
+    """A row of ``model`` that belongs to this case, once the case is loaded for ``actor``; :class:`NotFound` otherwise."""
     load_case(session, case_id, actor=actor, action=action)
-    refit = session.get(Refit, refit_id)
-    if refit is None or refit.case_id != case_id:
-        raise NotFound(f"case {case_id} has no refit {refit_id}")
-    return refit
+    row = session.get(model, row_id)
+    if row is None or row.case_id != case_id:
+        raise NotFound(f"case {case_id} has no {noun} {row_id}")
+    return row
 
 
 def latest_claim_versions(session: Session, case_id: int) -> dict[int, int]:

@@ -25,15 +25,9 @@ from app.auth.keys import digest, new_secret
 from app.auth.rate_limit import SignInLimits, wait_needed
 from app.auth.roles import Role
 from app.services.context import ServiceContext
-from app.services.errors import Forbidden, InvalidInput, Problem, SignInRefused, TooManyAttempts
+from app.services.errors import Forbidden, SignInRefused, TooManyAttempts
 from app.services.records import record_audit
-from app.services.users import (
-    MAX_FULL_NAME,
-    name_problems,
-    normalise_name,
-    password_field_problems,
-    user_info,
-)
+from app.services.users import checked_new_account, normalise_name, user_info
 from app.services.views import UserInfo
 from app.store.models import AuditEntry, User, WebSession, utc_now
 
@@ -147,13 +141,7 @@ def first_run_needed(ctx: ServiceContext) -> bool:
 
 def complete_first_run(ctx: ServiceContext, *, name: str, full_name: str, password: str, address: str) -> SignedIn:
     """Create the first steward and sign them in; refused once any account exists."""
-    name = normalise_name(name)
-    full_name = full_name.strip()
-    problems = name_problems(name) + password_field_problems(password, name=name)
-    if len(full_name) > MAX_FULL_NAME:
-        problems.append(Problem(field="full_name", message=f"full name: at most {MAX_FULL_NAME} characters"))
-    if problems:
-        raise InvalidInput(problems)
+    name, full_name = checked_new_account(name=name, full_name=full_name, password=password)
     password_hash = ctx.hasher.hash(password)
     with ctx.transaction() as session:
         if session.scalar(select(func.count()).select_from(User)):

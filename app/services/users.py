@@ -50,6 +50,25 @@ def password_field_problems(password: str, *, name: str, field: str = "password"
     return [Problem(field=field, message=f"{field}: {message}") for message in password_problems(password, name=name)]
 
 
+def checked_new_account(*, name: str, full_name: str, password: str, role: str | None = None) -> tuple[str, str]:
+    """A new account's sign-in name and full name as stored; :class:`InvalidInput` lists every problem.
+
+    The name, the role (when one is chosen) and the password are checked
+    against their rules, and the full name against its length.
+    """
+    name = normalise_name(name)
+    full_name = full_name.strip()
+    problems = name_problems(name)
+    if role is not None:
+        problems += _role_problems(role)
+    problems += password_field_problems(password, name=name)
+    if len(full_name) > MAX_FULL_NAME:
+        problems.append(Problem(field="full_name", message=f"full name: at most {MAX_FULL_NAME} characters"))
+    if problems:
+        raise InvalidInput(problems)
+    return name, full_name
+
+
 def user_info(session: Session, user: User) -> UserInfo:
     """An account with its open sign-ins and active tokens counted."""
     now = utc_now()
@@ -80,13 +99,7 @@ def user_info(session: Session, user: User) -> UserInfo:
 def add_user(ctx: ServiceContext, *, name: str, role: str, password: str, full_name: str = "") -> UserInfo:
     """Create an account."""
     require_on_server(ctx.actor, ServerAction.MANAGE_ACCOUNTS)
-    name = normalise_name(name)
-    full_name = full_name.strip()
-    problems = name_problems(name) + _role_problems(role) + password_field_problems(password, name=name)
-    if len(full_name) > MAX_FULL_NAME:
-        problems.append(Problem(field="full_name", message=f"full name: at most {MAX_FULL_NAME} characters"))
-    if problems:
-        raise InvalidInput(problems)
+    name, full_name = checked_new_account(name=name, full_name=full_name, password=password, role=role)
     password_hash = ctx.hasher.hash(password)
     with ctx.transaction() as session:
         if session.scalar(select(User.id).where(User.name == name)) is not None:
