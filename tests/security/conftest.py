@@ -11,7 +11,6 @@ from __future__ import annotations
 
 import io
 import itertools
-import tomllib
 from collections.abc import Iterator
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -28,8 +27,8 @@ from app.services.context import ServiceContext
 from app.settings import Settings
 from app.web.app import create_app
 from tests.accounts import FAST_HASHING, add_account, sign_in
+from tests.walking_demo import demo_claim, demo_csv_bytes
 
-DEMO_DIR = Path(__file__).resolve().parents[2] / "seed_demo" / "cases" / "walking_blood_pressure"
 ROLES = ("steward", "coordinator", "referee", "reader")
 UPLOAD_LIMIT = 1024 * 1024
 
@@ -130,8 +129,8 @@ def shared(tmp_path_factory: pytest.TempPathFactory) -> Iterator[Shared]:
         ctx: ServiceContext = app.state.services
         user_ids = {name: add_account(ctx, name, name) for name in ROLES}
         bystander_id = add_account(ctx, "bystander", "reader")
-        csv = (DEMO_DIR / "data.csv").read_bytes()
-        spec = tomllib.loads((DEMO_DIR / "claim.toml").read_text(encoding="utf-8"))
+        csv = demo_csv_bytes()
+        spec = demo_claim()
         own = reviewed_case(ctx, title="Own case", csv=csv, spec=spec)
         other = reviewed_case(ctx, title="Other case", csv=csv, spec=spec)
         for name in ("referee", "reader"):

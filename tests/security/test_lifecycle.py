@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import tomllib
 from collections.abc import Iterator
 from datetime import timedelta
 from pathlib import Path
@@ -20,7 +19,8 @@ from app.services.errors import CaseClosed, Forbidden
 from app.store.models import Base, Case, Judgement, utc_now
 from app.web.app import create_app
 from tests.accounts import add_account, sign_in
-from tests.security.conftest import DEMO_DIR, CaseIds, reviewed_case, security_settings
+from tests.security.conftest import CaseIds, reviewed_case, security_settings
+from tests.walking_demo import DEMO_DIR, demo_claim
 
 MARKER = "Unpublished-finding-7f3a9c"
 """Text that exists only in the deleted case: it must not be found anywhere on disk afterwards."""
@@ -35,7 +35,7 @@ def ctx(tmp_path: Path) -> Iterator[ServiceContext]:
 
 @pytest.fixture
 def spec() -> dict[str, object]:
-    return tomllib.loads((DEMO_DIR / "claim.toml").read_text(encoding="utf-8"))
+    return demo_claim()
 
 
 def rows_for(ctx: ServiceContext, case_id: int, refit_ids: list[int]) -> dict[str, int]:

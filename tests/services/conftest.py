@@ -1,13 +1,13 @@
 """Fixtures for the service tests: a server context on a temporary data directory, and demo data.
 
-The data come from the shared demo scenario (``seed_demo/cases/walking_blood_pressure``)
-and the shared simulation generator (``tests/simulation.py``); nothing is copied.
+The data come from the shared demo scenario (the ``demo_csv`` and ``demo_spec``
+fixtures of ``tests/conftest.py``) and the shared simulation generator
+(``tests/simulation.py``); nothing is copied.
 """
 
 from __future__ import annotations
 
 import io
-import tomllib
 from collections.abc import Iterator
 from dataclasses import dataclass
 from pathlib import Path
@@ -22,7 +22,6 @@ from app.settings import Settings
 from tests.accounts import FAST_HASHING
 from tests.simulation import IvDesign, iv_claim, iv_sample
 
-DEMO_DIR = Path(__file__).resolve().parents[2] / "seed_demo" / "cases" / "walking_blood_pressure"
 
 
 @dataclass(frozen=True)
@@ -47,18 +46,6 @@ def ctx(settings: Settings) -> Iterator[ServiceContext]:
     context = ServiceContext.open(settings)
     yield context
     context.close()
-
-
-@pytest.fixture
-def demo_csv() -> bytes:
-    """The walking demo's data file."""
-    return (DEMO_DIR / "data.csv").read_bytes()
-
-
-@pytest.fixture
-def demo_spec() -> dict[str, Any]:
-    """The walking demo's claim as the fictional manuscript states it."""
-    return tomllib.loads((DEMO_DIR / "claim.toml").read_text(encoding="utf-8"))
 
 
 def simulated_csv(*, seed: int = 7, **design: Any) -> bytes:

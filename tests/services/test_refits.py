@@ -18,6 +18,7 @@ from app.services.errors import NotFound, NotReady
 from app.spec import parse_claim
 from app.store.models import Refit
 from tests.services.conftest import Reviewed, simulated_csv, simulated_spec, upload
+from tests.walking_demo import add_unfinished_refit
 
 
 def test_a_finished_refit_stores_findings_with_provenance(
@@ -96,19 +97,14 @@ def test_a_refit_runs_off_the_request_and_reports_its_stage(ctx: ServiceContext)
 
 
 def test_refits_left_unfinished_are_resumed(ctx: ServiceContext, reviewed: Reviewed) -> None:
-    with ctx.transaction() as session:
-        row = Refit(
-            case_id=reviewed.case_id,
-            claim_id=reviewed.claim_id,
-            dataset_id=reviewed.dataset_id,
-            state="running",
-            stage=refits.STAGES[2],
-            dataset_sha256="0" * 64,
-            claim_sha256="0" * 64,
-        )
-        session.add(row)
-        session.flush()
-        interrupted = row.id
+    interrupted = add_unfinished_refit(
+        ctx,
+        case_id=reviewed.case_id,
+        claim_id=reviewed.claim_id,
+        dataset_id=reviewed.dataset_id,
+        state="running",
+        stage=refits.STAGES[2],
+    )
 
     assert refits.resume_unfinished(ctx) == [interrupted]
     assert wait_until_done(ctx, reviewed.case_id, interrupted).state == "finished"
@@ -141,19 +137,14 @@ def test_a_refit_whose_case_is_deleted_meanwhile_stops_quietly(
         return frame
 
     monkeypatch.setattr(refits, "load_frame", deleting)
-    with ctx.transaction() as session:
-        row = Refit(
-            case_id=reviewed.case_id,
-            claim_id=reviewed.claim_id,
-            dataset_id=reviewed.dataset_id,
-            state="waiting",
-            stage=refits.STAGES[0],
-            dataset_sha256="0" * 64,
-            claim_sha256="0" * 64,
-        )
-        session.add(row)
-        session.flush()
-        refit_id = row.id
+    refit_id = add_unfinished_refit(
+        ctx,
+        case_id=reviewed.case_id,
+        claim_id=reviewed.claim_id,
+        dataset_id=reviewed.dataset_id,
+        state="waiting",
+        stage=refits.STAGES[0],
+    )
 
     refits.run_refit(ctx, refit_id)
 

@@ -7,7 +7,6 @@ in ``tests/security``.
 
 from __future__ import annotations
 
-import tomllib
 from collections.abc import Iterator
 from dataclasses import dataclass
 from pathlib import Path
@@ -20,7 +19,6 @@ from app.settings import Settings
 from app.web.app import create_app
 from tests.accounts import FAST_HASHING, add_account, sign_in
 
-DEMO_DIR = Path(__file__).resolve().parents[2] / "seed_demo" / "cases" / "walking_blood_pressure"
 UPLOAD_LIMIT = 2 * 1024 * 1024
 
 
@@ -57,16 +55,6 @@ def client(settings: Settings) -> Iterator[TestClient]:
 
 
 @pytest.fixture
-def demo_csv() -> bytes:
-    return (DEMO_DIR / "data.csv").read_bytes()
-
-
-@pytest.fixture
-def demo_spec() -> dict[str, Any]:
-    return tomllib.loads((DEMO_DIR / "claim.toml").read_text(encoding="utf-8"))
-
-
-@pytest.fixture
 def reviewed(client: TestClient, demo_csv: bytes, demo_spec: dict[str, Any]) -> Reviewed:
     """The walking demo reviewed once: case, upload, claim and refit through /api/v1."""
     case_id = client.post("/api/v1/cases", json={"title": "Walking and blood pressure", "reference": "MS-17"}).json()[
@@ -79,3 +67,13 @@ def reviewed(client: TestClient, demo_csv: bytes, demo_spec: dict[str, Any]) -> 
     refit = client.post(f"/api/v1/cases/{case_id}/refits", json={"claim_id": claim_id, "dataset_id": dataset_id})
     assert refit.json()["state"] == "finished", refit.json()
     return Reviewed(case_id=case_id, dataset_id=dataset_id, claim_id=claim_id, refit_id=refit.json()["id"])
+
+
+@pytest.fixture
+def renamed_dataset(client: TestClient, reviewed: Reviewed, demo_csv: bytes) -> int:
+    """A second data version of the reviewed case whose instrument ``walkability_index`` is renamed: a refit fails."""
+    renamed = demo_csv.replace(b"walkability_index", b"walkability")
+    uploaded = client.post(
+        f"/api/v1/cases/{reviewed.case_id}/datasets", files={"file": ("renamed.csv", renamed, "text/csv")}
+    )
+    return uploaded.json()["dataset"]["id"]

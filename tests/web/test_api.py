@@ -178,13 +178,9 @@ def test_a_bad_upload_is_422_and_a_large_one_413(client: TestClient, reviewed: R
     assert len(client.get(f"/api/v1/cases/{reviewed.case_id}").json()["datasets"]) == 1
 
 
-def test_a_checklist_of_a_failed_refit_is_409(client: TestClient, reviewed: Reviewed, demo_csv: bytes) -> None:
-    without = demo_csv.replace(b"walkability_index", b"walkability")
-    dataset_id = client.post(
-        f"/api/v1/cases/{reviewed.case_id}/datasets", files={"file": ("renamed.csv", without, "text/csv")}
-    ).json()["dataset"]["id"]
+def test_a_checklist_of_a_failed_refit_is_409(client: TestClient, reviewed: Reviewed, renamed_dataset: int) -> None:
     refit = client.post(
-        f"/api/v1/cases/{reviewed.case_id}/refits", json={"claim_id": reviewed.claim_id, "dataset_id": dataset_id}
+        f"/api/v1/cases/{reviewed.case_id}/refits", json={"claim_id": reviewed.claim_id, "dataset_id": renamed_dataset}
     ).json()
     assert refit["state"] == "failed" and "walkability_index" in refit["error"]
     assert_error(client.get(f"/api/v1/cases/{reviewed.case_id}/refits/{refit['id']}/checklist"), 409, "not_ready")

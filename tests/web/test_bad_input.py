@@ -64,13 +64,11 @@ def test_column_names_with_markup_are_escaped_everywhere(client: TestClient) -> 
         assert "&lt;img src=x onerror=" in page.text, path
 
 
-def test_a_refit_that_fails_shows_why(client: TestClient, reviewed: Reviewed, demo_csv: bytes) -> None:
-    renamed = demo_csv.replace(b"walkability_index", b"walkability")
-    dataset_id = client.post(
-        f"/api/v1/cases/{reviewed.case_id}/datasets", files={"file": ("renamed.csv", renamed, "text/csv")}
-    ).json()["dataset"]["id"]
+def test_a_refit_that_fails_shows_why(client: TestClient, reviewed: Reviewed, renamed_dataset: int) -> None:
     started = client.post(
-        f"{reviewed.case}/refits", data={"claim_id": reviewed.claim_id, "dataset_id": dataset_id}, follow_redirects=False
+        f"{reviewed.case}/refits",
+        data={"claim_id": reviewed.claim_id, "dataset_id": renamed_dataset},
+        follow_redirects=False,
     )
 
     page = client.get(started.headers["location"])

@@ -9,9 +9,9 @@ import pytest
 from fastapi.testclient import TestClient
 
 from app.services import refits
-from app.store.models import Refit
 from app.web.templating import number
 from tests.web.conftest import Reviewed
+from tests.walking_demo import add_unfinished_refit
 
 TWIN = re.compile(r'<a class="twin" href="([^"]+)"')
 
@@ -272,20 +272,14 @@ def form_values(html: str) -> dict[str, Any]:
 
 
 def test_a_refit_still_computing_shows_its_progress_and_polls(client: TestClient, reviewed: Reviewed) -> None:
-    ctx = client.app.state.services  # type: ignore[attr-defined]
-    with ctx.transaction() as session:
-        waiting = Refit(
-            case_id=reviewed.case_id,
-            claim_id=reviewed.claim_id,
-            dataset_id=reviewed.dataset_id,
-            state="waiting",
-            stage=refits.STAGES[0],
-            dataset_sha256="0" * 64,
-            claim_sha256="0" * 64,
-        )
-        session.add(waiting)
-        session.flush()
-        refit_id = waiting.id
+    refit_id = add_unfinished_refit(
+        client.app.state.services,  # type: ignore[attr-defined]
+        case_id=reviewed.case_id,
+        claim_id=reviewed.claim_id,
+        dataset_id=reviewed.dataset_id,
+        state="waiting",
+        stage=refits.STAGES[0],
+    )
     base = f"{reviewed.case}/refits/{refit_id}"
 
     page = client.get(base)
