@@ -5,8 +5,17 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any
 
+from app.estimation.inference import CONFIDENCE_LEVEL
+from app.review import formatting
 from app.web import figures
-from app.web.labels import DIAGNOSTIC_GROUPS, ESTIMATORS, OTHER_DIAGNOSTICS
+from app.web.labels import (
+    DETAIL_FIELDS,
+    DETAIL_FIELDS_BY_DIAGNOSTIC,
+    DETAIL_VALUES,
+    DIAGNOSTIC_GROUPS,
+    ESTIMATORS,
+    OTHER_DIAGNOSTICS,
+)
 
 RESULT_FIELDS = frozenset(
     {"name", "statistic", "p_value", "df", "distribution", "null_hypothesis", "standing", "reason", "source"}
@@ -139,23 +148,84 @@ def group_diagnostics(diagnostics: dict[str, Any]) -> list[DiagnosticGroup]:
     return groups
 
 
-def details(result: dict[str, Any]) -> dict[str, list[tuple[str, Any]]]:
-    """A result's extra fields sorted by how to show them: numbers, text, tables of coefficients, sets."""
-    shown: dict[str, list[tuple[str, Any]]] = {"numbers": [], "text": [], "coefficients": [], "sets": []}
-    for key, value in result.items():
-        if key in RESULT_FIELDS or value is None:
+@dataclass(frozen=True)
+class DetailLine:
+    """One extra field of a diagnostic result, labelled in words and written like the rest of the page."""
+
+    label: str
+    value: str
+
+
+@dataclass(frozen=True)
+class CoefficientTable:
+    """A table of coefficients that a diagnostic result carries (first stage, reduced form, selection equation)."""
+
+    caption: str
+    rows: list[dict[str, Any]]
+
+
+@dataclass(frozen=True)
+class ResultDetails:
+    """A result's extra fields sorted by how they are shown: numbers, text, coefficient tables, confidence sets."""
+
+    numbers: list[DetailLine]
+    text: list[DetailLine]
+    coefficients: list[CoefficientTable]
+    sets: list[DetailLine]
+
+
+def details(key: str, result: dict[str, Any]) -> ResultDetails:
+    """The extra fields of the result stored under diagnostic ``key``, each with its label and written value.
+
+    Labels come from :data:`~app.web.labels.DETAIL_FIELDS` (or, where a field
+    means something particular to one diagnostic,
+    :data:`~app.web.labels.DETAIL_FIELDS_BY_DIAGNOSTIC`); a field not listed
+    there shows its own name in words.
+    """
+    shown = ResultDetails(numbers=[], text=[], coefficients=[], sets=[])
+    for field, value in result.items():
+        if field in RESULT_FIELDS or value is None:
             continue
-        if key == "confidence_set":
-            shown["sets"].append((key, value))
+        label, style = detail_label(key, field)
+        if field == "confidence_set":
+            level = formatting.as_number(result.get("confidence_level")) or CONFIDENCE_LEVEL
+            shown.sets.append(DetailLine(f"{_percent(level)} confidence set", formatting.confidence_set(value)))
         elif isinstance(value, bool):
-            shown["text"].append((key, "yes" if value else "no"))
+            shown.text.append(DetailLine(label, "yes" if value else "no"))
         elif isinstance(value, (int, float)):
-            shown["numbers"].append((key, value))
+            shown.numbers.append(DetailLine(label, _written(value, style)))
         elif isinstance(value, str):
-            shown["text"].append((key, value))
+            shown.text.append(DetailLine(label, DETAIL_VALUES.get(field, {}).get(value, value)))
         elif isinstance(value, list) and value and all(isinstance(row, dict) and "term" in row for row in value):
-            shown["coefficients"].append((key, value))
+            shown.coefficients.append(CoefficientTable(caption=label, rows=value))
     return shown
+
+
+def detail_label(key: str, field: str) -> tuple[str, str]:
+    """The label of ``field`` in a result of diagnostic ``key`` and how its value is written."""
+    found = DETAIL_FIELDS_BY_DIAGNOSTIC.get((key, field)) or DETAIL_FIELDS.get(field)
+    return found if found is not None else (field.replace("_", " ").capitalize(), "number")
+
+
+def _written(value: float, style: str) -> str:
+    if style == "count":
+        return formatting.count(value)
+    if style == "percent":
+        return _percent(value)
+    if style == "setting":
+        return formatting.setting(value)
+    if style == "p_value":
+        return formatting.p_value_cell(value)
+    if style == "plain":
+        return str(value)
+    if isinstance(value, int):
+        return formatting.count(value)
+    return formatting.number(value)
+
+
+def _percent(share: float) -> str:
+    """A share as a percentage: 0.05 is ``5%``, 0.975 is ``97.5%``."""
+    return f"{100 * share:.4g}%"
 
 
 def _entries(key: str, value: Any) -> list[tuple[str, dict[str, Any]]]:

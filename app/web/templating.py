@@ -52,6 +52,7 @@ def build_templates() -> Jinja2Templates:
         size=format_bytes,
         words=words,
         dom_id=dom_id,
+        breakable=breakable,
     )
     environment.globals.update(
         labels=labels,
@@ -169,3 +170,8 @@ def words(code: object) -> str:
 def dom_id(item_id: object) -> str:
     """An item id usable in HTML ids and CSS selectors (``relevance.effective_f`` becomes ``relevance--effective_f``)."""
     return str(item_id).replace(".", "--")
+
+
+def breakable(name: object) -> Markup:
+    """A column name that may wrap after its underscores (``walkability_<wbr>index``) in a narrow table."""
+    return Markup(str(escape(str(name))).replace("_", "_<wbr>"))

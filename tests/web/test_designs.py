@@ -9,6 +9,8 @@ import pandas as pd
 import pytest
 from fastapi.testclient import TestClient
 
+from app.web import labels, presenters
+
 from tests.design_simulation import (
     MediationDesign,
     PanelDesign,
@@ -83,8 +85,23 @@ def test_each_design_renders_its_results_and_checklist(client: TestClient, desig
     results = client.get(base)
     assert results.status_code == 200
     assert "Estimates" in results.text and "Provenance" in results.text
+    findings = client.get(f"/api/v1/cases/{case}/refits/{refit['id']}").json()["findings"]
+    assert unlabelled_fields(findings) == []
     checklist = client.get(f"{base}/checklist")
     assert checklist.status_code == 200 and 'id="verdict"' in checklist.text
     for figure in ("estimates", "first-stage"):
         assert client.get(f"{base}/figures/{figure}.svg").status_code in (200, 404)
     assert client.get(f"/cases/{case}").status_code == 200
+
+
+def unlabelled_fields(findings: dict[str, Any]) -> list[tuple[str, str]]:
+    """(diagnostic, field) pairs the results page would show under the engine's own field name."""
+    missing = []
+    for group in presenters.group_diagnostics(findings["diagnostics"]):
+        for key, result in group.results:
+            for field, value in result.items():
+                shown = presenters.details(key, {field: value})
+                labelled = field in labels.DETAIL_FIELDS or (key, field) in labels.DETAIL_FIELDS_BY_DIAGNOSTIC
+                if (shown.numbers or shown.text or shown.coefficients) and not labelled:
+                    missing.append((key, field))
+    return missing

@@ -54,23 +54,44 @@ def test_diagnostics_are_grouped_by_the_question_they_answer() -> None:
     assert all(group.meaning for group in groups)
 
 
-def test_details_sort_extra_fields_by_how_they_are_shown() -> None:
+def test_details_label_extra_fields_in_words_and_write_them_like_the_page() -> None:
     shown = presenters.details(
+        "effective_f",
         {
-            "name": "Anderson-Rubin",
+            "name": "Effective F",
             "statistic": 3.0,
             "confidence_set": [[None, 1.0]],
-            "partial_r2": 0.15,
-            "df_within": 12,
+            "confidence_level": 0.9,
+            "shea_partial_r2": 0.15234,
+            "n_instruments": 3,
+            "significance": 0.05,
+            "seed": 20240611,
             "shape": "unbounded",
+            "variance": "cluster",
             "robust": True,
             "coefficients": [{"term": "z", "estimate": 0.4}],
             "missing": None,
-        }
+        },
     )
-    assert shown == {
-        "numbers": [("partial_r2", 0.15), ("df_within", 12)],
-        "text": [("shape", "unbounded"), ("robust", "yes")],
-        "coefficients": [("coefficients", [{"term": "z", "estimate": 0.4}])],
-        "sets": [("confidence_set", [[None, 1.0]])],
-    }
+
+    line = presenters.DetailLine
+    assert shown.numbers == [
+        line("Confidence level", "90%"),
+        line("Shea partial R²", "0.1523"),
+        line("Instruments", "3"),
+        line("Significance level", "5%"),
+        line("Random seed", "20240611"),
+    ]
+    assert shown.sets == [line("90% confidence set", "[-inf, 1.000]")]
+    assert shown.text == [line("Shape of the set", "unbounded"), line("Variance estimator", "Cluster-robust"), line("Robust", "yes")]
+    assert shown.coefficients == [presenters.CoefficientTable("Coefficients", [{"term": "z", "estimate": 0.4}])]
+
+
+def test_a_field_that_means_something_particular_to_one_diagnostic_gets_its_own_label() -> None:
+    assert presenters.detail_label("variance_components", "rho")[0] == "Share of the error variance from unit effects (ρ)"
+    assert presenters.detail_label("selection", "rho")[0] == "Correlation ρ of the selection and outcome errors"
+    assert presenters.detail_label("first_stage", "coefficients")[0] == "First-stage coefficients"
+
+
+def test_a_field_without_a_label_shows_its_name_in_words() -> None:
+    assert presenters.detail_label("something_new", "new_ratio") == ("New ratio", "number")
