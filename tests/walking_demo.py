@@ -1,4 +1,6 @@
-"""The walking demo case as test data, and refit rows left unfinished, for the service, web and security tests.
+"""The walking demo case as test data, the ids of a reviewed case, and refit rows left unfinished.
+
+Shared by the service, web and security tests.
 
 The files are the demo's own (``seed_demo/cases/walking_blood_pressure``), read
 where they are; nothing is copied.
@@ -7,6 +9,7 @@ where they are; nothing is copied.
 from __future__ import annotations
 
 import tomllib
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
@@ -14,6 +17,16 @@ from app.services.context import ServiceContext
 from app.store.models import Refit
 
 DEMO_DIR = Path(__file__).resolve().parents[1] / "seed_demo" / "cases" / "walking_blood_pressure"
+
+
+@dataclass(frozen=True)
+class Reviewed:
+    """Ids of a case whose claim has been refitted once."""
+
+    case_id: int
+    dataset_id: int
+    claim_id: int
+    refit_id: int
 
 
 def demo_csv_bytes() -> bytes:

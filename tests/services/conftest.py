@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import io
 from collections.abc import Iterator
-from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
@@ -21,17 +20,7 @@ from app.services.context import ServiceContext
 from app.settings import Settings
 from tests.accounts import FAST_HASHING
 from tests.simulation import IvDesign, iv_claim, iv_sample
-
-
-
-@dataclass(frozen=True)
-class Reviewed:
-    """Ids of a case whose claim has been refitted once."""
-
-    case_id: int
-    dataset_id: int
-    claim_id: int
-    refit_id: int
+from tests.walking_demo import Reviewed
 
 
 @pytest.fixture

@@ -8,7 +8,6 @@ in ``tests/security``.
 from __future__ import annotations
 
 from collections.abc import Iterator
-from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
@@ -17,19 +16,14 @@ from fastapi.testclient import TestClient
 
 from app.settings import Settings
 from app.web.app import create_app
+from tests import walking_demo
 from tests.accounts import FAST_HASHING, add_account, sign_in
 
 UPLOAD_LIMIT = 2 * 1024 * 1024
 
 
-@dataclass(frozen=True)
-class Reviewed:
-    """Ids of a case reviewed once through the JSON API."""
-
-    case_id: int
-    dataset_id: int
-    claim_id: int
-    refit_id: int
+class Reviewed(walking_demo.Reviewed):
+    """Ids of a case reviewed once through the JSON API, and the paths of its pages."""
 
     @property
     def case(self) -> str:
