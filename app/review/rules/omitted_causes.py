@@ -70,6 +70,8 @@ def assess_naive_vs_instrumented(view: FindingsView) -> Outcome:
     )
     parts += _common_cause_size(view)
     evidence = " ".join(parts)
+    if significant(p) and not view.claim_is_naive:
+        evidence += " The test rejects exogeneity; the claim's instrumented estimator allows for that."
     if view.claim_is_naive and significant(p):
         return Outcome(
             "serious",
@@ -233,7 +235,7 @@ def assess_shared_source(view: FindingsView) -> Outcome:
 RULES = (
     Rule(
         id="omitted_causes.naive_vs_instrumented",
-        title="Naive and instrumented estimates agree",
+        title="The claimed estimator allows for an omitted common cause",
         rule=(
             f"A control-function test with p below {SIGNIFICANCE} says the focal regressor is correlated with the "
             "error; a claim that rests on OLS is then in doubt."
