@@ -88,6 +88,7 @@ def column_choices(dataset: Dataset) -> list[ColumnChoice]:
             kind=variable["kind"],
             n_missing=variable["n_missing"],
             n_distinct=variable["n_distinct"],
+            distinct_more_than=variable.get("distinct_more_than"),
         )
         for variable in dataset.profile["variables"]
     ]

@@ -73,7 +73,13 @@ class DatasetInfo(View):
 
 
 class DatasetDetail(View):
-    """A dataset version with its variable profile (``app.data.profile.DatasetProfile.to_dict()``)."""
+    """A dataset version with its variable profile (``app.data.profile.DatasetProfile.to_dict()``).
+
+    In the profile, a variable's ``n_distinct`` is its exact number of
+    distinct values, or ``null`` with ``distinct_more_than`` set when there are
+    more than that many (the exact count was not taken). Profiles stored before
+    ``distinct_more_than`` existed do not have the key; their counts are exact.
+    """
 
     case: CaseInfo
     dataset: DatasetInfo
@@ -207,12 +213,17 @@ class CaseDetail(View):
 
 
 class ColumnChoice(View):
-    """A column offered in the claim form, with what the profile says about it."""
+    """A column offered in the claim form, with what the profile says about it.
+
+    ``n_distinct`` is exact, or ``None`` when the profile says only that there
+    are more than ``distinct_more_than`` distinct values.
+    """
 
     name: str
     kind: str
     n_missing: int
-    n_distinct: int
+    n_distinct: int | None
+    distinct_more_than: int | None = None
 
 
 class ClaimEditor(View):

