@@ -7,8 +7,11 @@ folder. The upload is therefore written once, never spooled to the system's
 temporary folder (it stays inside the data directory), and a file over the
 limit is refused while it arrives.
 
-The service runs on a worker thread and reads through :class:`MultipartUpload`,
-which fetches the next block of the body from the event loop.
+The service runs on a worker thread and reads through :class:`MultipartUpload`.
+Meanwhile the event loop reads the body ahead of it, up to
+:data:`READ_AHEAD_BYTES`, so that the transfer goes on while the worker
+hashes, writes and parses what has arrived (the server stops reading from
+the socket when nobody takes the body).
 
 A browser's upload is a state-changing request made with the session cookie,
 so it must carry the form token: in the ``X-CSRF-Token`` header, or in the
@@ -19,13 +22,17 @@ is stored.
 
 from __future__ import annotations
 
+import threading
 from collections import deque
-from collections.abc import AsyncIterator
+from collections.abc import AsyncIterator, Callable
+from typing import TypeVar
 
+import anyio
 import anyio.from_thread
 from fastapi import Request
 from python_multipart.multipart import MultipartParser, parse_options_header
 from starlette.concurrency import run_in_threadpool
+from starlette.requests import ClientDisconnect
 
 from app.auth import csrf
 from app.errors import DataFileError
@@ -36,8 +43,8 @@ from app.web.identity import check_form_token
 from app.web.rendering import check_declared_size
 
 FILE_FIELD = "file"
-BLOCK_BYTES = 1 << 20
-"""Body bytes gathered on the event loop per hand-over to the worker thread."""
+READ_AHEAD_BYTES = 16 << 20
+"""Most body bytes read ahead of the worker thread."""
 MAX_FIELD_BYTES = 64 * 1024
 """Other form fields (not the file) are small; longer ones are refused."""
 
@@ -63,9 +70,78 @@ async def receive_dataset(request: Request, ctx: ServiceContext, *, case_id: int
             check_form_token(request, upload.fields_before_file.get(csrf.FIELD))
         return datasets.upload_dataset(ctx, case_id=case_id, source=upload, file_name=file_name)
 
-    stored = await run_in_threadpool(store)
-    await upload.drain()
-    return stored
+    return await upload.run(store)
+
+
+Result = TypeVar("Result")
+
+
+class _ReadAhead:
+    """Blocks of the body passed from the event loop to the worker thread, at most ``limit`` bytes waiting.
+
+    On the event loop, :meth:`put` waits while the worker is ``limit`` bytes
+    behind, until it has taken half of them. The worker's :meth:`take` waits
+    on a thread condition, so handing a block over needs no trip through the
+    event loop.
+    """
+
+    def __init__(self, *, limit: int) -> None:
+        self._limit = limit
+        self._changed = threading.Condition()
+        self._blocks: deque[bytes] = deque()
+        self._waiting = 0
+        self._room: anyio.Event | None = None
+        self._ended = False
+        self._closed = False
+
+    async def put(self, block: bytes) -> bool:
+        """Hand a block to the worker (event loop); ``False``, and the block not kept, once the worker is done.
+
+        A block put while the worker was finishing is among those :meth:`close` returns.
+        """
+        with self._changed:
+            if self._closed:
+                return False
+            self._blocks.append(block)
+            self._waiting += len(block)
+            self._changed.notify()
+            if self._waiting < self._limit:
+                return True
+            room = self._room = anyio.Event()
+        await room.wait()
+        return not self._closed
+
+    def end(self) -> None:
+        """The body has no more blocks (event loop)."""
+        with self._changed:
+            self._ended = True
+            self._changed.notify()
+
+    def close(self) -> list[bytes]:
+        """The worker is done (event loop): stop handing blocks over; returns the blocks it did not take."""
+        with self._changed:
+            self._closed = True
+            left, self._blocks = list(self._blocks), deque()
+            room, self._room = self._room, None
+        if room is not None:
+            room.set()
+        return left
+
+    def take(self) -> bytes:
+        """The next block (worker thread), waiting for it; ``b""`` when the body has ended."""
+        with self._changed:
+            while not self._blocks and not self._ended:
+                self._changed.wait()
+            if not self._blocks:
+                return b""
+            block = self._blocks.popleft()
+            self._waiting -= len(block)
+            room = self._room if self._waiting <= self._limit // 2 else None
+            if room is not None:
+                self._room = None
+        if room is not None:
+            anyio.from_thread.run_sync(room.set)
+        return block
 
 
 class MultipartUpload:
@@ -80,7 +156,7 @@ class MultipartUpload:
 
     def __init__(self, body: AsyncIterator[bytes], *, boundary: bytes) -> None:
         self._body = body
-        self._body_done = False
+        self._ahead = _ReadAhead(limit=READ_AHEAD_BYTES)
         self._parser = MultipartParser(
             boundary,
             callbacks={
@@ -115,19 +191,50 @@ class MultipartUpload:
             )
         return cls(request.stream(), boundary=boundary)
 
+    async def run(self, work: Callable[[], Result]) -> Result:
+        """Run ``work`` on a worker thread while the body is read ahead for it; return its result.
+
+        ``work`` reads the upload with :meth:`open_file` and :meth:`read`.
+        When it returns, the rest of the body (the closing boundary, later
+        fields) is read; when it raises, nothing more is read and its error
+        is raised here.
+        """
+        result: list[Result] = []
+        failure: list[Exception] = []
+        untaken: list[bytes] = []
+
+        async def on_worker() -> None:
+            try:
+                result.append(await run_in_threadpool(work))
+            except Exception as error:  # noqa: BLE001 - raised again below, outside the task group
+                failure.append(error)
+            finally:
+                untaken.extend(self._ahead.close())
+
+        async with anyio.create_task_group() as tasks:
+            tasks.start_soon(on_worker)
+            untaken_part = await self._read_ahead()
+        if failure:
+            raise failure[0]
+        for block in (*untaken, untaken_part):
+            self._feed(block)
+        while self._feed(await self._next_part()):
+            pass
+        return result[0]
+
     # -- worker thread side --------------------------------------------------------
 
     def open_file(self) -> str:
         """Read the body up to the start of the file's bytes; return the file's name."""
         while self.file_name is None:
-            if not self._feed(anyio.from_thread.run(self._next_block)):
+            if not self._feed(self._ahead.take()):
                 raise DataFileError(f"choose a data file to upload (the form has no file in the field '{FILE_FIELD}')")
         return self.file_name
 
     def read(self, size: int = -1, /) -> bytes:
         """The file's next bytes (at most ``size``, all that have arrived when negative); ``b""`` at its end."""
         while not self._chunks and not self.file_finished:
-            if not self._feed(anyio.from_thread.run(self._next_block)):
+            if not self._feed(self._ahead.take()):
                 raise DataFileError("the upload was cut off before the end of the file; try again")
         if not self._chunks:
             return b""
@@ -139,24 +246,27 @@ class MultipartUpload:
 
     # -- event loop side -------------------------------------------------------------
 
-    async def drain(self) -> None:
-        """Read what is left of the body after the file (the closing boundary, later fields)."""
-        while self._feed(await self._next_block()):
-            pass
+    async def _read_ahead(self) -> bytes:
+        """Pass the body to the worker as it arrives, until its end or until the worker is done.
 
-    async def _next_block(self) -> bytes:
-        """The next ~1 MiB of the body, or ``b""`` at its end."""
-        parts: list[bytes] = []
-        gathered = 0
-        while gathered < BLOCK_BYTES and not self._body_done:
-            try:
-                part = await self._body.__anext__()
-            except StopAsyncIteration:
-                self._body_done = True
-                break
-            parts.append(part)
-            gathered += len(part)
-        return b"".join(parts)
+        Returns the part read after the worker was done (``b""`` if none).
+        """
+        try:
+            while part := await self._next_part():
+                if not await self._ahead.put(part):
+                    return part
+        except ClientDisconnect:
+            pass  # the worker finds the file cut off
+        finally:
+            self._ahead.end()
+        return b""
+
+    async def _next_part(self) -> bytes:
+        """The next part of the body as the server received it, or ``b""`` at its end."""
+        try:
+            return await self._body.__anext__()
+        except StopAsyncIteration:
+            return b""
 
     # -- parsing ---------------------------------------------------------------------
 

@@ -20,6 +20,8 @@ applied: labelled variables hold their numeric codes.
 The modules of the package:
 
 - ``table``: :func:`read_table`, the entry point, and the reader of each format;
+- ``streaming``: :class:`ReadWhileReceiving`, which parses a text table while an
+  upload arrives and otherwise gives way to :func:`read_table`;
 - ``detection``: :func:`detect_format`, magic bytes and the extension cross-check;
 - ``text_layout``: encoding, delimiter and decimal mark of text tables;
 - ``text``, ``statistical``, ``spreadsheet``, ``columnar``, ``rdata``: the
@@ -34,12 +36,14 @@ from __future__ import annotations
 from app.data.readers.detection import detect_format
 from app.data.readers.formats import FORMAT_LABELS, FORMATS
 from app.data.readers.limits import ReadLimits
+from app.data.readers.streaming import ReadWhileReceiving
 from app.data.readers.table import read_table
 
 __all__ = [
     "FORMATS",
     "FORMAT_LABELS",
     "ReadLimits",
+    "ReadWhileReceiving",
     "detect_format",
     "read_table",
 ]

@@ -21,7 +21,8 @@ from app.data.readers.limits import MiB
 from app.data.readers.text_layout import TextLayout, sniff_text
 from app.errors import DataFileError
 
-_HEAD_BYTES = 1 * MiB
+HEAD_BYTES = 1 * MiB
+"""How much of a file detection reads: magic bytes and text layout are decided from this head."""
 
 _SAS_MAGIC = (
     b"\x00\x00\x00\x00\x00\x00\x00\x00"
@@ -30,6 +31,7 @@ _SAS_MAGIC = (
     b"\x09\xc7\x31\x8c\x18\x1f\x10\x11"
 )
 _STATA_OLD_VERSIONS = frozenset({104, 105, 108, 110, 111, 112, 113, 114, 115})
+_ZIP_MAGIC = (b"PK\x03\x04", b"PK\x05\x06")
 _OLE2_MAGIC = b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1"
 _GZIP_MAGIC = b"\x1f\x8b"
 _BZIP2_MAGIC = b"BZh"
@@ -59,8 +61,9 @@ _OTHER_MAGIC: tuple[tuple[bytes, str], ...] = (
 )
 
 _TEXT_EXTENSIONS = frozenset({".csv", ".tsv", ".tab", ".txt"})
+_TEXT_FORMATS = ("csv", "tsv")
 _EXTENSION_FORMATS: dict[str, tuple[str, ...]] = {
-    **{ext: ("csv", "tsv") for ext in _TEXT_EXTENSIONS},
+    **{ext: _TEXT_FORMATS for ext in _TEXT_EXTENSIONS},
     ".dta": ("stata",),
     ".sav": ("spss",),
     ".zsav": ("spss",),
@@ -117,6 +120,11 @@ class Detected:
     text: TextLayout | None = None
     compression: str | None = None  # for R files: "gzip", "bzip2", "xz" or None
 
+    @classmethod
+    def of_text(cls, layout: TextLayout) -> Detected:
+        """A text table: TSV when tab-separated, CSV otherwise (also for semicolons and pipes)."""
+        return cls(format="tsv" if layout.delimiter == "\t" else "csv", text=layout)
+
 
 def detect_format(path: Path, *, name: str | None = None) -> str:
     """Decide a file's format from its content, cross-checked with its name.
@@ -165,7 +173,7 @@ def file_size(path: Path, display: str) -> int:
 def _read_head(path: Path, display: str) -> bytes:
     try:
         with path.open("rb") as handle:
-            return handle.read(_HEAD_BYTES)
+            return handle.read(HEAD_BYTES)
     except OSError:
         raise DataFileError(f'"{display}" could not be opened: the stored file is missing.') from None
 
@@ -199,7 +207,7 @@ def detect(path: Path, display: str) -> Detected:
         raise DataFileError(f'"{display}" is {binary}, not a data table. SecondStage reads {SUPPORTED}.')
 
     whole = size <= len(head)
-    if expected is not None and expected != ("csv", "tsv"):
+    if expected is not None and expected != _TEXT_FORMATS:
         # The extension promises a binary format: say so, whatever the text is.
         try:
             layout = sniff_text(head, display, whole=whole)
@@ -209,8 +217,38 @@ def detect(path: Path, display: str) -> Detected:
         except DataFileError:
             content = "text or data of an unknown kind" if _looks_textual(head) else "binary data of no known format"
         raise _mismatch(display, expected, content)
-    layout = sniff_text(head, display, whole=whole)
-    return Detected(format="tsv" if layout.delimiter == "\t" else "csv", text=layout)
+    return Detected.of_text(sniff_text(head, display, whole=whole))
+
+
+def text_layout_of_head(head: bytes, display: str, *, whole: bool) -> TextLayout | None:
+    """The layout of a text table, when a file's head alone shows that :func:`detect` will find one.
+
+    Parameters
+    ----------
+    head
+        The first :data:`HEAD_BYTES` of the file (all of it when shorter).
+    display
+        The name the user gave the file; its extension is checked.
+    whole
+        Whether ``head`` is the whole file.
+
+    Returns
+    -------
+    TextLayout or None
+        What ``detect(path, display).text`` is for any file that starts with
+        ``head``; ``None`` when the file is not plain text under a text
+        extension (or none), or when sniffing refuses it: then only
+        :func:`detect` on the whole file says what it is, or why it is refused.
+    """
+    extension = _extension(display)
+    if extension in _UNSUPPORTED_EXTENSIONS or _EXTENSION_FORMATS.get(extension, _TEXT_FORMATS) != _TEXT_FORMATS:
+        return None
+    if head.startswith(_ZIP_MAGIC) or _binary_kind(head) is not None:
+        return None
+    try:
+        return sniff_text(head, display, whole=whole)
+    except DataFileError:
+        return None
 
 
 def _mismatch(display: str, expected: tuple[str, ...], content: str) -> DataFileError:
@@ -222,6 +260,13 @@ def _mismatch(display: str, expected: tuple[str, ...], content: str) -> DataFile
 
 def _detect_binary(path: Path, head: bytes) -> Detected | str | None:
     """The binary format of the file, a description of an unsupported binary file, or None for text."""
+    if head.startswith(_ZIP_MAGIC):
+        return _zip_kind(path)
+    return _binary_kind(head)
+
+
+def _binary_kind(head: bytes) -> Detected | str | None:
+    """What :func:`_detect_binary` says of a head that is not a ZIP archive's."""
     if head.startswith(b"PAR1"):
         return Detected("parquet")
     if head.startswith(b"<stata_dta>") or (
@@ -236,8 +281,6 @@ def _detect_binary(path: Path, head: bytes) -> Detected | str | None:
         return Detected("spss")
     if head.startswith(_SAS_MAGIC):
         return Detected("sas")
-    if head.startswith((b"PK\x03\x04", b"PK\x05\x06")):
-        return _zip_kind(path)
     r_kind = _r_kind(head)
     if r_kind is not None:
         return r_kind

@@ -80,13 +80,14 @@ def read_table(
         )
     detected = detect(path, display)
     reader = READERS[detected.format]
-    with _quiet():
+    with quiet():
         frame = reader(path, detected, display, limits, sheet=sheet, r_object=r_object)
     return finish_frame(frame, display, limits)
 
 
 @contextmanager
-def _quiet() -> Iterator[None]:
+def quiet() -> Iterator[None]:
+    """Silence library warnings (they would reach the web app's logs or fail a ``-W error`` run)."""
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         yield

@@ -6,15 +6,18 @@ import mmap
 import re
 from collections.abc import Callable
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import pandas as pd
 
 from app.data.readers.detection import Detected
 from app.data.readers.frames import no_rows
 from app.data.readers.limits import ReadLimits, check_size, too_many_columns
-from app.data.readers.text_layout import legacy_encoding
+from app.data.readers.text_layout import TextLayout, legacy_encoding
 from app.errors import DataFileError
+
+if TYPE_CHECKING:
+    import pyarrow as pa
 
 _NULL_VALUES = [
     "",
@@ -44,42 +47,27 @@ _ARROW_ROW_ERROR = re.compile(r"Expected (\d+) columns, got (\d+): ?(.*)", re.DO
 def read_text(path: Path, detected: Detected, display: str, limits: ReadLimits, **_: Any) -> pd.DataFrame:
     """A CSV or TSV file, read by pyarrow with the layout detection found."""
     import pyarrow as pa
-    import pyarrow.csv as pacsv
 
     layout = detected.text
     assert layout is not None
     if layout.n_header_fields > limits.max_columns:
         raise too_many_columns(display, layout.n_header_fields, limits)
 
-    def attempt(source: Any, encoding: str, newlines: bool) -> pa.Table:
-        return pacsv.read_csv(
-            source,
-            read_options=pacsv.ReadOptions(encoding=encoding, use_threads=True),
-            parse_options=pacsv.ParseOptions(delimiter=layout.delimiter, newlines_in_values=newlines),
-            convert_options=pacsv.ConvertOptions(
-                null_values=_NULL_VALUES,
-                strings_can_be_null=True,
-                quoted_strings_can_be_null=True,
-                decimal_point=layout.decimal_point,
-            ),
-        )
-
     def read(source: Callable[[], Any], encoding: str) -> pa.Table:
         try:
-            return attempt(source(), encoding, layout.newlines_in_values)
+            return parse_text(source(), layout, encoding=encoding, newlines_in_values=layout.newlines_in_values)
         except pa.ArrowInvalid as first:
             if layout.newlines_in_values or "parse error" not in str(first).lower():
                 raise _text_error(path, display, first, encoding) from None
         # A quoted value may span lines further down than the sample reached.
         try:
-            return attempt(source(), encoding, True)
+            return parse_text(source(), layout, encoding=encoding, newlines_in_values=True)
         except pa.ArrowInvalid as error:
             raise _text_error(path, display, error, encoding) from None
 
-    encoding = layout.encoding
-    arrow_encoding = "utf8" if encoding == "utf-8" else encoding
-    table = read(lambda: str(path), arrow_encoding)
-    if encoding == "utf-8" and _has_undecodable_text(table):
+    encoding = arrow_encoding(layout)
+    table = read(lambda: str(path), encoding)
+    if needs_second_pass(table, layout):
         data = path.read_bytes()
         try:
             data.decode("utf-8")
@@ -88,6 +76,44 @@ def read_text(path: Path, detected: Detected, display: str, limits: ReadLimits, 
             utf8 = data.decode(legacy).encode("utf-8")
             del data
             table = read(lambda: pa.BufferReader(utf8), "utf8")
+    return text_frame(table, display, limits)
+
+
+def arrow_encoding(layout: TextLayout) -> str:
+    """The layout's encoding as pyarrow names it."""
+    return "utf8" if layout.encoding == "utf-8" else layout.encoding
+
+
+def parse_text(source: Any, layout: TextLayout, *, encoding: str, newlines_in_values: bool) -> pa.Table:
+    """Parse text in the given layout into a pyarrow Table (pyarrow's own errors are not translated).
+
+    ``source`` is a path, a pyarrow buffer, or a binary file object that
+    pyarrow reads in blocks; ``encoding`` is pyarrow's name for it.
+    """
+    import pyarrow.csv as pacsv
+
+    return pacsv.read_csv(
+        source,
+        read_options=pacsv.ReadOptions(encoding=encoding, use_threads=True),
+        parse_options=pacsv.ParseOptions(delimiter=layout.delimiter, newlines_in_values=newlines_in_values),
+        convert_options=pacsv.ConvertOptions(
+            null_values=_NULL_VALUES,
+            strings_can_be_null=True,
+            quoted_strings_can_be_null=True,
+            decimal_point=layout.decimal_point,
+        ),
+    )
+
+
+def needs_second_pass(table: pa.Table, layout: TextLayout) -> bool:
+    """Whether text read as UTF-8 came out with undecodable bytes, so that the whole file must be decoded again."""
+    return layout.encoding == "utf-8" and _has_undecodable_text(table)
+
+
+def text_frame(table: pa.Table, display: str, limits: ReadLimits) -> pd.DataFrame:
+    """The DataFrame of a parsed text table: a void last column dropped, sizes checked, empty columns as floats."""
+    import pyarrow as pa
+
     last_is_void = table.num_columns > 1 and table.column_names[-1].strip() == ""
     if last_is_void and table.num_rows and table.column(-1).null_count == table.num_rows:
         # "a,b," lines: a trailing delimiter makes an unnamed, empty last column.
@@ -104,7 +130,7 @@ def read_text(path: Path, detected: Detected, display: str, limits: ReadLimits, 
     return table.to_pandas(date_as_object=False, split_blocks=True)
 
 
-def _has_undecodable_text(table: Any) -> bool:
+def _has_undecodable_text(table: pa.Table) -> bool:
     import pyarrow as pa
 
     if any(pa.types.is_binary(field.type) or pa.types.is_large_binary(field.type) for field in table.schema):
