@@ -102,8 +102,10 @@ class FileStore:
             synced = self._syncer.submit(_fsync_file, path)
             yield IncomingFile(path=path, sha256=digest.hexdigest(), size_bytes=size, synced=synced)
         finally:
+            # A kept file was synced in keep(); a discarded one (already stored, refused)
+            # needs no durability, so its sync is not waited for.
             if synced is not None:
-                synced.result()
+                synced.cancel()
             path.unlink(missing_ok=True)
 
     def keep(self, incoming: IncomingFile) -> Path:
@@ -123,8 +125,11 @@ class FileStore:
 
 
 def _fsync_file(path: Path) -> None:
-    """Force a written file's bytes to disk."""
-    descriptor = os.open(path, os.O_RDONLY)
+    """Force a written file's bytes to disk (nothing to do if it was discarded meanwhile)."""
+    try:
+        descriptor = os.open(path, os.O_RDONLY)
+    except FileNotFoundError:
+        return
     try:
         os.fsync(descriptor)
     finally:
