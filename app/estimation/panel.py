@@ -67,6 +67,7 @@ from app.estimation.inference import chi2_p, coefficient_rows, f_p
 from app.estimation.kclass import kclass
 from app.estimation.linalg import SingularMatrixError, inverse_pd
 from app.estimation.moments import Layout, Moments
+from app.estimation.selection import refuse_exact_fit
 from app.estimation.sensitivity import benchmark_groups, sensitivity_diagnostics
 from app.spec import ClaimSpec, CovarianceKind, Design
 
@@ -165,7 +166,9 @@ def refit_panel(frame: pd.DataFrame, spec: ClaimSpec, provenance: dict[str, Any]
 
     pooled_moments = _moments(design.gram, design, absorbed_dof=0)
     pooled_variance = variance_estimator(spec.covariance, pooled_moments, design.data, design.clusters)
-    fitted.add(kclass(pooled_moments, kappa=0.0, code="pooled_ols", terms=terms), pooled_moments, pooled_variance)
+    pooled = kclass(pooled_moments, kappa=0.0, code="pooled_ols", terms=terms)
+    refuse_exact_fit(design.data, pooled, outcome=design.outcome, model="pooled model")
+    fitted.add(pooled, pooled_moments, pooled_variance)
 
     unit_means = structure.unit_sums(design.data) / structure.counts[:, None]
     within_all = design.data - unit_means[structure.codes]
@@ -188,6 +191,7 @@ def refit_panel(frame: pd.DataFrame, spec: ClaimSpec, provenance: dict[str, Any]
     else:
         within_variance = variance_estimator(spec.covariance, within_moments, within_data, design.clusters)
         fit = kclass(within_moments, kappa=0.0, code="within", terms=columns.terms)
+        refuse_exact_fit(within_data, fit, outcome=design.outcome, model="fixed-effects (within) model")
         fitted.add(_count_effects(fit, effects_in_k), within_moments, within_variance)
         diagnostics |= within_iv(fitted, within_moments, within_variance, columns, design, effects_in_k)
 
@@ -287,7 +291,7 @@ class PanelFits:
                     description=description,
                     n_params=len(moments.layout.regressors) + moments.absorbed_dof,
                     df_resid=df_resid,
-                    residual_std=(moments.quad(fit.residual, fit.residual) / df_resid) ** 0.5,
+                    residual_std=max(0.0, moments.quad(fit.residual, fit.residual) / df_resid) ** 0.5,
                     source=source,
                 )
             )

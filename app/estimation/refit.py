@@ -32,7 +32,7 @@ from app.estimation.overidentification import overidentification_tests
 from app.estimation.panel import ESTIMATORS as PANEL_ESTIMATORS
 from app.estimation.panel import refit_panel
 from app.estimation.selection import ESTIMATORS as SELECTION_ESTIMATORS
-from app.estimation.selection import refit_selection
+from app.estimation.selection import refit_selection, refuse_exact_fit
 from app.estimation.sensitivity import benchmark_groups, sensitivity_diagnostics
 from app.spec import ClaimSpec, Design
 
@@ -100,6 +100,7 @@ def refit_instrumental(frame: pd.DataFrame, spec: ClaimSpec, provenance: dict[st
     terms = [*design.endogenous, *design.exogenous]
     fitted = fit_estimators(moments, variance, terms=terms)
     fits = fitted.fits
+    refuse_exact_fit(design.data, fits["ols"], outcome=design.outcome, model="claimed model")
     diagnostics = iv_diagnostics(moments, variance, fits=fits, gmm=fitted.gmm, design=design, frame=frame, spec=spec)
     diagnostics.update(
         sensitivity_diagnostics(
@@ -233,7 +234,7 @@ def estimator_summary(moments: Moments, fit: LinearFit) -> EstimatorSummary:
     """Name, description, kappa and degrees of freedom of one estimator."""
     name, description, source = ESTIMATORS[fit.code]
     df_resid = moments.n_obs - fit.n_params
-    residual_std = (moments.quad(fit.residual, fit.residual) / df_resid) ** 0.5
+    residual_std = max(0.0, moments.quad(fit.residual, fit.residual) / df_resid) ** 0.5
     kappa = fit.kappa if fit.code in ("liml", "fuller1", "fuller4") else None
     return EstimatorSummary(
         code=fit.code,

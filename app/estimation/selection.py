@@ -97,6 +97,8 @@ NAIVE = {
 MILLS = "inverse Mills ratio"
 RESIDUAL = "generalized residual"
 SELECTION_SOURCE = "Heckman (1979); Wooldridge (2010), sec. 19.6.1"
+EXACT_FIT_TOLERANCE = 1e-10
+"""Share of the outcome's sum of squares about its mean below which a least-squares fit counts as exact."""
 SELECTION_NULL = "the outcome's error is unrelated to selection (rho = 0): OLS on the selected rows is consistent"
 TREATMENT_NULL = "the treatment is unrelated to the outcome's error (rho = 0): OLS is consistent"
 
@@ -150,6 +152,7 @@ def _refit_selected_sample(frame: pd.DataFrame, spec: ClaimSpec, provenance: dic
     p = len(design.endogenous)
     terms = [probit_names[j] for j in outcome_columns]
     naive = _ols_step(stacked[:, :-1], n_endog=p, terms=terms, code="ols", spec=spec, clusters=clusters)
+    refuse_exact_fit(naive.data, naive.fit, outcome=spec.outcome, model="outcome equation on the selected rows")
     second = _ols_step(stacked, n_endog=p, terms=[*terms, MILLS], code="heckman_two_step", spec=spec, clusters=clusters)
     heckman = heckman_covariance(second, index=index, mills=mills, probit=probit, probit_regressors=probit_data[chosen])
 
@@ -205,6 +208,7 @@ def _refit_selected_treatment(frame: pd.DataFrame, spec: ClaimSpec, provenance: 
     stacked = np.column_stack([design.data[:, : 1 + p], exogenous, residual])
     terms = [*design.endogenous, *design.exogenous]
     naive = _ols_step(stacked[:, :-1], n_endog=p, terms=terms, code="ols", spec=spec, clusters=design.clusters)
+    refuse_exact_fit(naive.data, naive.fit, outcome=spec.outcome, model="outcome equation")
     second = _ols_step(stacked, n_endog=p, terms=[*terms, RESIDUAL], code="control_function", spec=spec, clusters=design.clusters)
     covariance = control_function_covariance(
         second, treatment=treatment, probit=probit, probit_regressors=probit_data, clusters=design.clusters, kind=spec.covariance
@@ -426,6 +430,30 @@ def _ols_step(
     return SecondStep(fit=kclass(moments, kappa=0.0, code=code, terms=terms), moments=moments, variance=variance, data=data)
 
 
+def refuse_exact_fit(data: np.ndarray, fit: LinearFit, *, outcome: str, model: str) -> None:
+    """Raise a DesignError when ``fit`` (least squares on ``data = [y, ...]``) reproduces the outcome exactly.
+
+    With zero residuals the residual variance, every standard error and every
+    test is 0/0, and rounding leaves residual sums of squares of either sign.
+    The residual ``e = A c`` is computed from the rows, not from the
+    cross-product, because ``c' A'A c`` loses the digits that tell an exact
+    fit from a close one. The fit counts as exact when ``e'e`` is at most
+    :data:`EXACT_FIT_TOLERANCE` times the outcome's sum of squares about its
+    mean (an R-squared within 1e-10 of one).
+    """
+    residual = data @ fit.residual
+    outcome_values = data[:, 0]
+    spread = float(np.sum((outcome_values - outcome_values.mean()) ** 2))
+    if float(residual @ residual) > EXACT_FIT_TOLERANCE * spread:
+        return
+    regressors = ", ".join(term for term in fit.terms) or "no regressor"
+    raise DesignError(
+        f"'{outcome}' is an exact linear function of {regressors} in the {model}: the fit leaves "
+        "no residual, so no standard error or test can be computed. Check for a control that copies or is "
+        "computed from the outcome, or for too few rows"
+    )
+
+
 def _rows(step: SecondStep) -> list[EstimateRow]:
     return coefficient_rows(step.fit, step.variance.covariance(step.fit), df=step.variance.inference_df(step.fit.n_params))
 
@@ -438,7 +466,7 @@ def _summary(step: SecondStep, name: str, description: str, source: str) -> Esti
         description=description,
         n_params=step.fit.n_params,
         df_resid=df_resid,
-        residual_std=(step.moments.quad(step.fit.residual, step.fit.residual) / df_resid) ** 0.5,
+        residual_std=max(0.0, step.moments.quad(step.fit.residual, step.fit.residual) / df_resid) ** 0.5,
         source=source,
     )
 
