@@ -67,7 +67,7 @@ from app.estimation.inference import chi2_p, coefficient_rows, f_p
 from app.estimation.kclass import kclass
 from app.estimation.linalg import SingularMatrixError, inverse_pd
 from app.estimation.moments import Layout, Moments
-from app.estimation.selection import refuse_exact_fit
+from app.estimation.selection import refuse_exact_fit, with_analysed_fit
 from app.estimation.sensitivity import benchmark_groups, sensitivity_diagnostics
 from app.spec import ClaimSpec, CovarianceKind, Design
 
@@ -626,7 +626,7 @@ def _sensitivity(fitted: PanelFits, columns: WithinColumns, spec: ClaimSpec) -> 
             "omitted_cause_sensitivity": [TestResult.not_applicable("Sensitivity to an omitted common cause", reason)],
             "proportional_selection": [TestResult.not_applicable("Bias-adjusted estimate under proportional selection", reason)],
         }
-    return sensitivity_diagnostics(
+    results = sensitivity_diagnostics(
         fitted.moments["within"],
         columns=columns.names,
         focal=columns.names[1 : 1 + columns.layout.n_endog],
@@ -634,6 +634,7 @@ def _sensitivity(fitted: PanelFits, columns: WithinColumns, spec: ClaimSpec) -> 
         benchmarks=benchmark_groups(spec.benchmarks, columns.names),
         options=spec.sensitivity,
     )
+    return with_analysed_fit(results, "within")
 
 
 def _moments(gram: np.ndarray, design: DesignMatrices, *, absorbed_dof: int) -> Moments:

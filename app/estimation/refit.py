@@ -8,6 +8,7 @@ This is the engine's single entry point, :func:`refit`. Designs other than
 from __future__ import annotations
 
 from collections.abc import Callable
+import dataclasses
 from dataclasses import dataclass
 from typing import Any
 
@@ -32,7 +33,7 @@ from app.estimation.overidentification import overidentification_tests
 from app.estimation.panel import ESTIMATORS as PANEL_ESTIMATORS
 from app.estimation.panel import refit_panel
 from app.estimation.selection import ESTIMATORS as SELECTION_ESTIMATORS
-from app.estimation.selection import refit_selection, refuse_exact_fit
+from app.estimation.selection import refit_selection, refuse_exact_fit, with_analysed_fit
 from app.estimation.sensitivity import benchmark_groups, sensitivity_diagnostics
 from app.spec import ClaimSpec, Design
 
@@ -102,16 +103,18 @@ def refit_instrumental(frame: pd.DataFrame, spec: ClaimSpec, provenance: dict[st
     fits = fitted.fits
     refuse_exact_fit(design.data, fits["ols"], outcome=design.outcome, model="claimed model")
     diagnostics = iv_diagnostics(moments, variance, fits=fits, gmm=fitted.gmm, design=design, frame=frame, spec=spec)
-    diagnostics.update(
-        sensitivity_diagnostics(
-            moments,
-            columns=design.columns,
-            focal=design.endogenous,
-            baseline=[INTERCEPT] if INTERCEPT in design.exogenous else [],
-            benchmarks=benchmark_groups(spec.benchmarks, design.columns),
-            options=spec.sensitivity,
-        )
+    analysed, analysed_code = moments, "ols"
+    if spec.design is Design.MEDIATION:
+        analysed, analysed_code = arms_as_controls(moments), "ols_with_treatment"
+    sensitivity = sensitivity_diagnostics(
+        analysed,
+        columns=design.columns,
+        focal=design.endogenous,
+        baseline=[INTERCEPT] if INTERCEPT in design.exogenous else [],
+        benchmarks=benchmark_groups(spec.benchmarks, design.columns),
+        options=spec.sensitivity,
     )
+    diagnostics.update(with_analysed_fit(sensitivity, analysed_code))
     if spec.design is Design.MEDIATION:
         fits["ols_with_treatment"] = treatment_adjusted_ols(moments, terms=[*design.endogenous, *design.instruments, *design.exogenous])
         diagnostics["mediation"] = mediation_reading(
@@ -138,6 +141,19 @@ def design_moments(design: DesignMatrices) -> Moments:
     """Moments of a built design."""
     layout = Layout(n_endog=len(design.endogenous), n_instr=len(design.instruments), n_exog=len(design.exogenous))
     return Moments(gram=design.gram, n_obs=design.n_obs, layout=layout, absorbed_dof=design.absorbed_dof)
+
+
+def arms_as_controls(moments: Moments) -> Moments:
+    """The same moments with the excluded instruments (a mediator claim's randomized arms) among the controls.
+
+    The mediator claim's regression holds the arms fixed (``ols_with_treatment``);
+    its OLS is y on ``[X, Z, W]``, which is what the omitted-cause analyses must
+    examine. The columns of ``A`` keep their order, so only the layout changes.
+    """
+    layout = moments.layout
+    return dataclasses.replace(
+        moments, layout=Layout(n_endog=layout.n_endog, n_instr=0, n_exog=layout.n_instr + layout.n_exog)
+    )
 
 
 @dataclass(frozen=True)

@@ -454,6 +454,18 @@ def refuse_exact_fit(data: np.ndarray, fit: LinearFit, *, outcome: str, model: s
     )
 
 
+def with_analysed_fit(results: dict[str, list[TestResult]], code: str) -> dict[str, list[TestResult]]:
+    """Omitted-cause analyses marked with the estimator whose regression they analyse (key ``estimator``).
+
+    The checklist judges them only when that estimator is the claimed one, and
+    names it in the evidence either way.
+    """
+    return {
+        key: [dataclasses.replace(result, details={**result.details, "estimator": code}) for result in entries]
+        for key, entries in results.items()
+    }
+
+
 def _rows(step: SecondStep) -> list[EstimateRow]:
     return coefficient_rows(step.fit, step.variance.covariance(step.fit), df=step.variance.inference_df(step.fit.n_params))
 
@@ -472,9 +484,10 @@ def _summary(step: SecondStep, name: str, description: str, source: str) -> Esti
 
 
 def _sensitivity(naive: SecondStep, spec: ClaimSpec) -> dict[str, Any]:
+    """The omitted-cause analyses of the naive OLS fit (the fit a claim without correction rests on)."""
     columns = [spec.outcome, *naive.fit.terms]
     baseline = ["(intercept)"] if "(intercept)" in columns else []
-    return sensitivity_diagnostics(
+    results = sensitivity_diagnostics(
         naive.moments,
         columns=columns,
         focal=list(spec.focal),
@@ -482,6 +495,7 @@ def _sensitivity(naive: SecondStep, spec: ClaimSpec) -> dict[str, Any]:
         benchmarks=benchmark_groups(spec.benchmarks, columns),
         options=spec.sensitivity,
     )
+    return with_analysed_fit(results, naive.fit.code)
 
 
 def _findings(

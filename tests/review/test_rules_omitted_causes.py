@@ -85,6 +85,35 @@ def test_sensitivity_is_for_reference_when_the_claim_uses_instruments(item):
     assert "for reference" in found.evidence
 
 
+def panel_claim(estimator: str) -> dict:
+    findings = with_claim(iv_findings(), design="panel", instruments=[], unit="store_id", claimed={"estimator": estimator})
+    findings["sample"]["columns"]["instruments"] = []
+    findings["estimators"] += [{"code": "within", "name": "Fixed effects (within)"}, {"code": "random_effects", "name": "Random effects"}]
+    entries = sensitivity((1.0, -0.1, 0.5))
+    entries[0]["estimator"] = "within"
+    return with_diagnostic(findings, "omitted_cause_sensitivity", entries)
+
+
+def test_sensitivity_names_the_estimator_it_analyses(item):
+    found = item(panel_claim("within"), SENSITIVITY)
+    assert found.standing == "serious"
+    assert found.evidence.startswith("Fixed effects (within) estimate 0.6100")
+
+
+def test_sensitivity_of_another_estimator_than_the_claimed_one_is_for_reference(item):
+    found = item(panel_claim("random_effects"), SENSITIVITY)
+    assert found.standing == "not_applicable"
+    assert "The claim rests on Random effects; this analysis examines the Fixed effects (within) regression" in found.evidence
+    assert "for reference only" in found.evidence
+
+
+def test_findings_without_the_analysed_estimator_read_as_the_within_fit_in_a_panel(item):
+    findings = panel_claim("random_effects")
+    del findings["diagnostics"]["omitted_cause_sensitivity"][0]["estimator"]
+    assert "examines the Fixed effects (within) regression" in item(findings, SENSITIVITY).evidence
+    assert item(with_claim(findings, design="iv"), SENSITIVITY).evidence.startswith("The claim rests on Random effects; this analysis examines the OLS regression")
+
+
 def oster(delta_for_zero: float, *, excludes_zero: bool = True) -> list[dict]:
     return [
         result(0.5, None, regressor=FOCAL, delta=1.0, r2_max=0.52, beta_star=0.5, controlled_estimate=0.61,
@@ -98,6 +127,14 @@ def oster(delta_for_zero: float, *, excludes_zero: bool = True) -> list[dict]:
 def test_oster_delta_for_a_zero_effect(item, delta, standing):
     found = item(with_diagnostic(ols_claim(), "proportional_selection", oster(delta)), SELECTION)
     assert found.standing == standing
+
+
+def test_oster_for_another_estimator_is_for_reference(item):
+    entries = oster(0.5)
+    entries[0]["estimator"] = "ols"
+    found = item(with_diagnostic(iv_findings(), "proportional_selection", entries), SELECTION)
+    assert found.standing == "not_applicable"
+    assert "The claim rests on 2SLS; this analysis examines the OLS regression" in found.evidence
 
 
 def test_oster_identified_set_containing_zero_is_a_concern(item):

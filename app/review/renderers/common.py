@@ -12,6 +12,7 @@ from dataclasses import dataclass
 from app.review.checklist import Checklist, ChecklistItem
 from app.review.formatting import as_number, confidence_set, count, interval, number, p_value, statistic
 from app.review.items import STANDING_LABELS
+from app.review.rules.omitted_causes import analysed_fit
 from app.review.rules.overidentification import joint_test
 from app.review.view import FindingsView
 
@@ -158,9 +159,11 @@ def key_diagnostics(view: FindingsView) -> list[tuple[str, str]]:
             rows.append((label, _test_text(found.value)))
     sensitivity = view.lookup_for("omitted_cause_sensitivity")
     if sensitivity.usable and isinstance(sensitivity.value, Mapping) and not view.claim_uses_instruments:
+        analysed = analysed_fit(view, sensitivity.value)
+        reference = "" if analysed == view.claimed_estimator else ", for reference"
         rows.append(
             (
-                "Robustness value (Cinelli-Hazlett)",
+                f"Robustness value (Cinelli-Hazlett, {view.estimator_name(analysed)}{reference})",
                 f"RV = {number(sensitivity.value.get('robustness_value_q'))}, "
                 f"RV at alpha = {number(sensitivity.value.get('robustness_value_q_alpha'))}",
             )

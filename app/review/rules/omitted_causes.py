@@ -114,12 +114,10 @@ def assess_sensitivity(view: FindingsView) -> Outcome:
     if (skip := unavailable(found)) is not None:
         return skip
     data = found.value
-    evidence = _sensitivity_evidence(data)
-    if view.claim_uses_instruments:
-        return not_applicable(
-            "The claim rests on instruments, so the sensitivity of the regression without them is shown for "
-            "reference only. " + evidence
-        )
+    analysed = analysed_fit(view, data)
+    evidence = _sensitivity_evidence(data, name=view.estimator_name(analysed))
+    if (reference := _for_reference(view, analysed, evidence)) is not None:
+        return reference
     bounds = [b for b in _benchmark_bounds(data) if b.get("available") and as_number(b.get("multiplier")) is not None]
     if not bounds:
         return Outcome(
@@ -169,11 +167,34 @@ def _bound_overturns(bound: Mapping[str, Any], *, estimate: float | None) -> boo
     return estimate is not None and adjusted is not None and adjusted * estimate <= 0
 
 
-def _sensitivity_evidence(data: Mapping[str, Any]) -> str:
+def analysed_fit(view: FindingsView, data: Mapping[str, Any]) -> str:
+    """The estimator whose regression an omitted-cause analysis examines.
+
+    Findings record it under ``estimator``; older findings did not, and then
+    analysed the within fit in a panel and the plain OLS fit otherwise.
+    """
+    code = data.get("estimator")
+    if isinstance(code, str):
+        return code
+    return "within" if view.design == "panel" else "ols"
+
+
+def _for_reference(view: FindingsView, analysed: str, evidence: str) -> Outcome | None:
+    """Not applicable, with the evidence kept, when the analysis examines another estimator than the claimed one."""
+    if analysed == view.claimed_estimator:
+        return None
+    return not_applicable(
+        f"The claim rests on {view.estimator_name(view.claimed_estimator)}; this analysis examines the "
+        f"{view.estimator_name(analysed)} regression, so it is shown for reference only. " + evidence
+    )
+
+
+def _sensitivity_evidence(data: Mapping[str, Any], *, name: str) -> str:
     q, alpha = data.get("q", 1), data.get("alpha", SIGNIFICANCE)
     parts = [
-        f"OLS estimate {number(data.get('estimate'))} (classical s.e. {number(data.get('std_error'))}, as the method "
-        f"assumes); partial R-squared of the focal regressor with the outcome: {number(data.get('partial_r2_outcome'))}.",
+        f"{name} estimate {number(data.get('estimate'))} (classical s.e. {number(data.get('std_error'))}, as the "
+        f"method assumes); partial R-squared of the focal regressor with the outcome: "
+        f"{number(data.get('partial_r2_outcome'))}.",
         f"Robustness value RV_q (q = {setting(q)}): {number(data.get('robustness_value_q'))}; "
         f"RV_q,alpha (alpha = {setting(alpha)}): {number(data.get('robustness_value_q_alpha'))}.",
     ]
@@ -194,19 +215,18 @@ def assess_proportional_selection(view: FindingsView) -> Outcome:
     if (skip := unavailable(found)) is not None:
         return skip
     data = found.value
+    analysed = analysed_fit(view, data)
     delta = as_number(data.get("delta_for_zero"))
     evidence = (
-        f"Bias-adjusted estimate beta* = {number(data.get('beta_star'))} (delta = {setting(data.get('delta', 1))}, "
+        f"{view.estimator_name(analysed)} regression: bias-adjusted estimate beta* = {number(data.get('beta_star'))} (delta = {setting(data.get('delta', 1))}, "
         f"R_max = {number(data.get('r2_max'))}; controlled estimate {number(data.get('controlled_estimate'))}); "
         f"selection ratio delta that brings the estimate to zero: {number(delta)}."
     )
     warnings = [str(w) for w in data.get("warnings") or []]
     if warnings:
         evidence += " Note: " + "; ".join(warnings) + "."
-    if view.claim_uses_instruments:
-        return not_applicable(
-            "The claim rests on instruments; shown for the regression without them, for reference only. " + evidence
-        )
+    if (reference := _for_reference(view, analysed, evidence)) is not None:
+        return reference
     too_small = delta is not None and abs(delta) < SELECTION_RATIO
     if too_small or data.get("identified_set_excludes_zero") is False:
         return Outcome(
