@@ -1,17 +1,22 @@
 """Checklists: building one from stored findings and judgements, saving judgements, exporting reports.
 
 The checklist itself is computed by :mod:`app.review` from the refit's findings
-and the reviewer's judgements every time it is shown; only the judgements and a
-summary (verdict, serious items, reproduction status) for the triage overview
-are stored.
+and the reviewer's judgements every time it is shown; only the judgements (with
+who saved each last, and when) and a summary (verdict, serious items,
+reproduction status) for the triage overview are stored.
+
+Saving is checked optimistically: a form carries the time the judgement it
+shows was saved (:class:`LoadedVersion`), and a save made from an older version
+than the stored one is refused with :class:`ChangedMeanwhile`, keeping nothing,
+so two people typing on one item never overwrite each other silently.
 """
 
 from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass
-from datetime import timedelta
-from typing import Any, Literal
+from datetime import UTC, datetime, timedelta
+from typing import Any, ClassVar, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator
 from sqlalchemy import select
@@ -22,7 +27,7 @@ from app.auth.roles import Action
 from app.review.checklist import REVIEWER_JUDGEMENTS, Checklist, ChecklistItem, Judgement, build_checklist
 from app.review.reports import REPORT_FORMATS
 from app.services.context import ServiceContext
-from app.services.errors import InvalidInput, NotFound, NotReady, problems_from
+from app.services.errors import ChangedMeanwhile, InvalidInput, NotFound, NotReady, Problem, problems_from
 from app.services.records import case_info, load_refit, record_event, refit_info
 from app.services.views import (
     ChecklistSection,
@@ -66,6 +71,37 @@ class JudgementFields(BaseModel):
 
     def judgement(self) -> Judgement:
         return Judgement(standing=self.standing, note=self.note.strip())
+
+
+@dataclass(frozen=True)
+class LoadedVersion:
+    """The judgement a save started from: when it was last saved, or None when the item had none."""
+
+    updated_at: datetime | None
+
+    NONE: ClassVar[str] = "none"
+    """What a form carries for an item that had no judgement when it was loaded."""
+
+    @classmethod
+    def from_text(cls, text: str) -> LoadedVersion:
+        """The version a form carries: an ISO timestamp, or :attr:`NONE` for an item without a judgement."""
+        if text.strip() == cls.NONE:
+            return cls(updated_at=None)
+        try:
+            return cls(updated_at=datetime.fromisoformat(text.strip()))
+        except ValueError:
+            raise InvalidInput(
+                [Problem(field="loaded_at", message="loaded_at: not a time this page could have sent; reload the page")]
+            ) from None
+
+    def matches(self, stored: JudgementRow | None) -> bool:
+        """Whether nothing was saved on the item since this version was loaded."""
+        if stored is None:
+            return self.updated_at is None
+        if self.updated_at is None:
+            return False
+        loaded = self.updated_at if self.updated_at.tzinfo else self.updated_at.replace(tzinfo=UTC)
+        return loaded == stored.updated_at
 
 
 @dataclass(frozen=True)
@@ -125,12 +161,15 @@ def get_checklist(ctx: ServiceContext, *, case_id: int, refit_id: int) -> Checkl
     with ctx.reading() as session:
         row = _finished_refit(session, case_id, refit_id, actor=ctx.actor)
         checklist = checklist_of(row)
+        saved = {stored.item_id: stored for stored in row.judgements}
         return ChecklistView(
             case=case_info(row.case),
             refit=refit_info(row),
             verdict=verdict_data(checklist),
             sections=[
-                ChecklistSection(id=section, name=name, items=[item_data(item) for item in items])
+                ChecklistSection(
+                    id=section, name=name, items=[item_data(item, saved=saved.get(item.id)) for item in items]
+                )
                 for section, name, items in checklist.sections()
             ],
             judged_items=judged_count(checklist),
@@ -148,9 +187,20 @@ def get_checklist(ctx: ServiceContext, *, case_id: int, refit_id: int) -> Checkl
 
 
 def save_judgement(
-    ctx: ServiceContext, *, case_id: int, refit_id: int, item_id: str, standing: str | None, note: str
+    ctx: ServiceContext,
+    *,
+    case_id: int,
+    refit_id: int,
+    item_id: str,
+    standing: str | None,
+    note: str,
+    loaded: LoadedVersion | None = None,
 ) -> JudgementSaved:
-    """Record the reviewer's standing and note on one item; an empty standing and note clear it."""
+    """Record the reviewer's standing and note on one item; an empty standing and note clear it.
+
+    With ``loaded``, the save is refused (:class:`ChangedMeanwhile`, nothing
+    kept) when someone saved or cleared the item after that version was loaded.
+    """
     try:
         judgement = JudgementFields(standing=standing, note=note).judgement()
     except ValidationError as error:
@@ -167,10 +217,14 @@ def save_judgement(
         stored = session.scalars(
             select(JudgementRow).where(JudgementRow.refit_id == refit_id, JudgementRow.item_id == item_id)
         ).one_or_none()
+        if loaded is not None and not loaded.matches(stored):
+            raise ChangedMeanwhile(_changed_meanwhile(stored))
+        previous_author = stored.author if stored is not None else ""
         cleared = judgement.standing is None and not judgement.note
         if cleared:
             if stored is not None:
                 session.delete(stored)
+                stored = None
             judgements.pop(item_id, None)
         else:
             if stored is None:
@@ -179,6 +233,8 @@ def save_judgement(
             stored.standing = judgement.standing
             stored.note = judgement.note
             stored.updated_at = now
+            stored.author = ctx.actor.name[:100]
+            stored.author_user_id = ctx.actor.user_id
             judgements[item_id] = judgement
         checklist = checklist_of(row, judgements=judgements)
         store_summary(row, summarise(checklist))
@@ -189,16 +245,27 @@ def save_judgement(
             message=f"Refit {refit_id}: {'judgement cleared' if cleared else 'judgement saved'} on '{item.item}'",
             actor=ctx.actor,
             audit_action="judgement_saved" if before.standing != judgement.standing else "note_saved",
-            audit_detail=_judgement_change(refit_id, item.item, before=before, after=judgement),
+            audit_detail=_judgement_change(
+                refit_id, item.item, before=before, after=judgement, author=ctx.actor.name, previous_author=previous_author
+            ),
             merge_within=JUDGEMENT_EVENT_MERGE,
         )
         return JudgementSaved(
-            item=item_data(checklist.item(item_id)),
+            item=item_data(checklist.item(item_id), saved=stored),
             verdict=verdict_data(checklist),
             judged_items=judged_count(checklist),
             total_items=len(checklist.items),
             saved_at=now,
         )
+
+
+def _changed_meanwhile(stored: JudgementRow | None) -> str:
+    """Why a save from an older version is refused: who changed the item, and when (UTC, to the minute)."""
+    if stored is None:
+        return "someone else cleared this judgement since you loaded it; reload to see it, your change was not saved"
+    at = stored.updated_at.strftime("%Y-%m-%d %H:%M UTC")
+    who = stored.author or "someone else"
+    return f"{who} changed this note at {at}; reload to see it, your change was not saved"
 
 
 def export_report(ctx: ServiceContext, *, case_id: int, refit_id: int, format_name: str) -> ExportedReport:
@@ -231,19 +298,34 @@ def judged_count(checklist: Checklist) -> int:
     return sum(1 for item in checklist.items if item.judgement is not None)
 
 
-def item_data(item: ChecklistItem) -> dict[str, Any]:
-    """An item as JSON data, with the standing that counts (the reviewer's when set)."""
-    return {**item.to_dict(), "effective_standing": item.effective_standing}
+def item_data(item: ChecklistItem, *, saved: JudgementRow | None = None) -> dict[str, Any]:
+    """An item as JSON data, with the standing that counts (the reviewer's when set) and who judged it.
+
+    ``saved_by`` and ``saved_at`` name the author and time of the stored
+    judgement (None without one); ``saved_at`` is also the version a form sends
+    back when it saves (see :class:`LoadedVersion`).
+    """
+    return {
+        **item.to_dict(),
+        "effective_standing": item.effective_standing,
+        "saved_by": (saved.author or None) if saved is not None else None,
+        "saved_at": saved.updated_at if saved is not None else None,
+    }
 
 
-def _judgement_change(refit_id: int, title: str, *, before: Judgement, after: Judgement) -> str:
-    """What a save changed, for the audit trail: the standing in words and the note's length, not its text."""
+def _judgement_change(
+    refit_id: int, title: str, *, before: Judgement, after: Judgement, author: str, previous_author: str
+) -> str:
+    """What a save changed, for the audit trail: the standing, the note's length (not its text) and its author."""
     parts = []
     if before.standing != after.standing:
         parts.append(f"standing {before.standing or 'automatic'} to {after.standing or 'automatic'}")
     if before.note != after.note:
         parts.append(f"note {'removed' if not after.note else f'now {len(after.note)} characters'}")
-    return f"Refit {refit_id}, '{title}': " + ("; ".join(parts) or "saved unchanged")
+    authors = f"by {author}" + (
+        f", replacing the judgement by {previous_author}" if previous_author and previous_author != author else ""
+    )
+    return f"Refit {refit_id}, '{title}': " + ("; ".join(parts) or "saved unchanged") + f"; {authors}"
 
 
 def _finished_refit(

@@ -25,6 +25,10 @@ class CaseClosed(SecondStageError):
     """The case is closed, so nothing in it can change until a coordinator reopens it."""
 
 
+class ChangedMeanwhile(SecondStageError):
+    """Someone else saved the same thing after it was loaded; nothing of the late save is kept."""
+
+
 class SignInRefused(SecondStageError):
     """The name or password is wrong (the message never says which)."""
 

@@ -228,6 +228,11 @@ class Judgement(Base):
     standing: Mapped[str | None] = mapped_column(String(20))
     note: Mapped[str] = mapped_column(Text, default="")
     updated_at: Mapped[datetime] = mapped_column(default=utc_now)
+    """When it was last saved; a save must name the time it was loaded with (see :mod:`app.services.checklists`)."""
+    author: Mapped[str] = mapped_column(String(100), default="", server_default="")
+    """Sign-in name of whoever saved it last (empty for judgements saved before authors were kept)."""
+    author_user_id: Mapped[int | None] = mapped_column(ForeignKey("users.id", ondelete="SET NULL"))
+    """That person's account while it exists."""
 
     refit: Mapped[Refit] = relationship(back_populates="judgements")
 
@@ -337,7 +342,7 @@ class AuditEntry(Base):
 
     Never changed once written (on SQLite a trigger refuses updates). Entries
     about a case go with the case when it is deleted; the deletion itself is
-    recorded without a case id.
+    recorded without a case id, naming the case and counting what went with it.
     """
 
     __tablename__ = "audit_entries"

@@ -12,6 +12,7 @@ not allow 403.
 
 from __future__ import annotations
 
+from datetime import datetime
 from typing import Annotated, Any, Literal
 
 from fastapi import APIRouter, Depends, Query, Request, status
@@ -61,7 +62,11 @@ ERROR_RESPONSES: dict[int | str, dict[str, Any]] = {
     401: {"model": ErrorBody, "description": "No valid sign-in cookie or API token"},
     403: {"model": ErrorBody, "description": "Your role may not do this, or the form token is missing"},
     404: {"model": ErrorBody, "description": "No such case (or not one you may see), or nothing of that id in it"},
-    409: {"model": ErrorBody, "description": "The refit has not finished (or failed), or the case is closed"},
+    409: {
+        "model": ErrorBody,
+        "description": "The refit has not finished (or failed), the case is closed, or someone else changed "
+        "the judgement after it was loaded",
+    },
     413: {"model": ErrorBody, "description": "The upload is larger than the server accepts"},
     422: {"model": ErrorBody, "description": "Invalid input; `problems` names each field"},
 }
@@ -107,6 +112,15 @@ class JudgementInput(Body):
         default=None, description="The reviewer's own standing; null leaves the automatic one"
     )
     note: str = Field(default="", max_length=checklists.MAX_NOTE_LENGTH)
+    loaded_at: datetime | None = Field(
+        default=None,
+        description="The item's `saved_at` when you read it (null: it had no judgement). When given, the save is "
+        "refused with 409 if someone saved the item since; when left out, the save overwrites whatever is stored",
+    )
+
+    def loaded(self) -> checklists.LoadedVersion | None:
+        """The version the client started from, when it named one."""
+        return checklists.LoadedVersion(self.loaded_at) if "loaded_at" in self.model_fields_set else None
 
 
 @router.get("/cases", name="api_list_cases")
@@ -233,9 +247,18 @@ def get_checklist(ctx: Services, case_id: RowId, refit_id: RowId) -> ChecklistVi
 def save_judgement(
     ctx: Services, case_id: RowId, refit_id: RowId, item_id: str, body: JudgementInput
 ) -> JudgementSaved:
-    """Set the reviewer's standing and note on one checklist item (empty standing and note clear it)."""
+    """Set the reviewer's standing and note on one checklist item (empty standing and note clear it).
+
+    Send the item's `saved_at` as `loaded_at` so that a save never silently replaces someone else's newer one.
+    """
     return checklists.save_judgement(
-        ctx, case_id=case_id, refit_id=refit_id, item_id=item_id, standing=body.standing, note=body.note
+        ctx,
+        case_id=case_id,
+        refit_id=refit_id,
+        item_id=item_id,
+        standing=body.standing,
+        note=body.note,
+        loaded=body.loaded(),
     )
 
 

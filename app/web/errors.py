@@ -6,9 +6,12 @@ Every error response of ``/api/v1`` has the body::
                "problems": [{"field": "instruments", "message": "..."}]}}
 
 HTML pages show the same message on the error page (forms re-render themselves
-with their problems instead, keeping what the reviewer typed). A page asked for
-without a sign-in redirects to the sign-in page (an htmx request is told where
-to go with ``HX-Redirect``); the API answers 401 with ``WWW-Authenticate``.
+with their problems instead, keeping what the reviewer typed). A request sent
+by htmx from a page (a note saved as it is typed) gets the message alone as
+plain text, which the page's script shows beside the control. A page asked for
+without a sign-in redirects to the sign-in page, with the page to come back to
+(an htmx request is told where to go with ``HX-Redirect``); the API answers 401
+with ``WWW-Authenticate``.
 """
 
 from __future__ import annotations
@@ -18,13 +21,14 @@ from dataclasses import dataclass, field
 
 from fastapi import FastAPI, Request
 from fastapi.exceptions import RequestValidationError
-from fastapi.responses import JSONResponse, RedirectResponse, Response
+from fastapi.responses import JSONResponse, PlainTextResponse, RedirectResponse, Response
 from pydantic import BaseModel
 from starlette.exceptions import HTTPException
 
 from app.errors import DataFileError, DesignError, SecondStageError, SpecError
 from app.services.errors import (
     CaseClosed,
+    ChangedMeanwhile,
     FileTooLarge,
     Forbidden,
     InvalidInput,
@@ -34,7 +38,7 @@ from app.services.errors import (
     SignInRefused,
     TooManyAttempts,
 )
-from app.web.identity import SIGN_IN_PATH, FormTokenRefused, SignInRequired, sign_in_location
+from app.web.identity import FormTokenRefused, SignInRequired, sign_in_location
 
 log = logging.getLogger(__name__)
 
@@ -90,6 +94,7 @@ ERROR_KINDS: tuple[tuple[type[Exception], int, str], ...] = (
     (NotFound, 404, "not_found"),
     (NotReady, 409, "not_ready"),
     (CaseClosed, 409, "case_closed"),
+    (ChangedMeanwhile, 409, "changed_meanwhile"),
     (TooManyAttempts, 429, "too_many_attempts"),
     (FileTooLarge, 413, "file_too_large"),
     (DataFileError, 422, "unreadable_data_file"),
@@ -159,10 +164,13 @@ def install_error_handlers(app: FastAPI) -> None:
             if isinstance(error, SignInRequired):
                 headers["WWW-Authenticate"] = 'Bearer realm="secondstage"'
             return JSONResponse(info.body(), status_code=info.status, headers=headers)
+        from_htmx = request.headers.get("HX-Request") == "true"
         if isinstance(error, SignInRequired):
-            if request.headers.get("HX-Request") == "true":
-                return Response(status_code=401, headers={"HX-Redirect": SIGN_IN_PATH})
+            if from_htmx:
+                return Response(status_code=401, headers={"HX-Redirect": sign_in_location(request)})
             return RedirectResponse(sign_in_location(request), status_code=303)
+        if from_htmx:
+            return PlainTextResponse(info.message, status_code=info.status, headers=headers)
         templates = request.app.state.templates
         return templates.TemplateResponse(
             request, "error.html", {"error": info, "json_twin": None}, status_code=info.status, headers=headers

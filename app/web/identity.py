@@ -18,7 +18,7 @@ from __future__ import annotations
 import threading
 from dataclasses import dataclass
 from typing import Annotated
-from urllib.parse import urlencode
+from urllib.parse import urlencode, urlsplit
 
 from fastapi import Depends, Request
 from starlette.concurrency import run_in_threadpool
@@ -155,11 +155,33 @@ def check_form_token(request: Request, given: str | None) -> None:
 
 
 def sign_in_location(request: Request) -> str:
-    """The sign-in page, with the page asked for as ``next`` when it can simply be asked for again."""
-    if request.method != "GET":
+    """The sign-in page, with a page to come back to as ``next``.
+
+    For a page asked for, that page; for a request htmx sends from a page (a
+    note saved as it is typed), the page it was sent from, which htmx names in
+    ``HX-Current-URL``, when that page is on this server; otherwise none. The
+    sign-in page checks ``next`` again with :func:`safe_next`.
+    """
+    if request.headers.get("HX-Request") == "true":
+        target = _same_site_page(request, request.headers.get("HX-Current-URL", ""))
+    elif request.method == "GET":
+        target = request.url.path + (f"?{request.url.query}" if request.url.query else "")
+    else:
+        target = None
+    if target is None or safe_next(target) == "/":
         return SIGN_IN_PATH
-    target = request.url.path + (f"?{request.url.query}" if request.url.query else "")
     return f"{SIGN_IN_PATH}?{urlencode({'next': target})}"
+
+
+def _same_site_page(request: Request, url: str) -> str | None:
+    """The path and query of ``url`` when it is a page of this server (same host), else None."""
+    try:
+        parts = urlsplit(url)
+    except ValueError:
+        return None
+    if parts.netloc != request.headers.get("host", "") or parts.scheme not in ("http", "https"):
+        return None
+    return parts.path + (f"?{parts.query}" if parts.query else "")
 
 
 def safe_next(target: str | None) -> str:

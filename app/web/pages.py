@@ -329,9 +329,17 @@ def judgement_form(
     item_id: str,
     standing: Annotated[str, Form()] = "",
     note: Annotated[str, Form()] = "",
+    loaded_at: Annotated[str | None, Form()] = None,
 ) -> Response:
+    """Save one item's judgement; the form's ``loaded_at`` is the version it shows (a stale save gets 409)."""
     saved = checklists.save_judgement(
-        ctx, case_id=case_id, refit_id=refit_id, item_id=item_id, standing=standing or None, note=note
+        ctx,
+        case_id=case_id,
+        refit_id=refit_id,
+        item_id=item_id,
+        standing=standing or None,
+        note=note,
+        loaded=None if loaded_at is None else checklists.LoadedVersion.from_text(loaded_at),
     )
     if is_htmx(request):
         return render(request, "_judgement_saved.html", json_twin=None, saved=saved)
