@@ -50,6 +50,9 @@ STAGES = (
 )
 """What a refit is doing, in order; the progress page lists them and marks the current one."""
 
+OVER = ("finished", "failed")
+"""States of a refit that will not change again."""
+
 INTERNAL_ERROR = (
     "the refit stopped on an internal error, not because of your data or claim; "
     "the server log has the details (please report it)"

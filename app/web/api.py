@@ -225,10 +225,27 @@ def revise_claim(ctx: Services, case_id: RowId, claim_id: RowId, body: ClaimVers
     )
 
 
-@router.post("/cases/{case_id}/refits", name="api_start_refit", status_code=status.HTTP_202_ACCEPTED)
-def start_refit(ctx: Services, case_id: RowId, body: NewRefit) -> RefitInfo:
-    """Refit a claim version on a dataset version; poll the refit until its state is finished or failed."""
-    return refits.start_refit(ctx, case_id=case_id, claim_id=body.claim_id, dataset_id=body.dataset_id)
+@router.post(
+    "/cases/{case_id}/refits",
+    name="api_start_refit",
+    status_code=status.HTTP_201_CREATED,
+    responses={
+        201: {"description": "The refit is over (state finished or failed) and comes back complete"},
+        202: {"model": RefitInfo, "description": "The refit goes on in the background: poll it at `Location`"},
+    },
+)
+def start_refit(ctx: Services, request: Request, response: Response, case_id: RowId, body: NewRefit) -> RefitInfo:
+    """Refit a claim version on a dataset version.
+
+    A refit that is over within the server's short wait answers 201 with its
+    state; a longer one answers 202 and goes on in the background: poll its
+    `Location` until the state is finished or failed.
+    """
+    refit = refits.start_refit(ctx, case_id=case_id, claim_id=body.claim_id, dataset_id=body.dataset_id)
+    response.headers["Location"] = str(request.url_for("api_get_refit", case_id=str(case_id), refit_id=str(refit.id)).path)
+    if refit.state not in refits.OVER:
+        response.status_code = status.HTTP_202_ACCEPTED
+    return refit
 
 
 @router.get("/cases/{case_id}/refits/{refit_id}", name="api_get_refit")
