@@ -121,7 +121,7 @@ def _record_dataset(
             session,
             case,
             kind="dataset_uploaded",
-            message=f"Data version {version} uploaded: {name} ({profile['n_rows']} rows, {profile['n_columns']} columns)",
+            message=f"Data version {version} uploaded: {name} ({_count(profile['n_rows'], 'row')}, {_count(profile['n_columns'], 'column')})",
             actor=ctx.actor,
             audit_detail=f"Data version {version} uploaded: {name}, SHA-256 {sha256}",
         )
@@ -178,6 +178,11 @@ def format_bytes(size: int) -> str:
     if unit == 0:
         return f"{size} bytes"
     return f"{value:.1f} {units[unit]}" if value < 10 else f"{value:.0f} {units[unit]}"
+
+
+def _count(n: int, noun: str) -> str:
+    """``1 row``, ``2 rows``."""
+    return f"{n:,} {noun}{'' if n == 1 else 's'}"
 
 
 def _suffix(name: str) -> str:

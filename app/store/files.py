@@ -36,7 +36,7 @@ class FileExceedsLimit(Exception):
 class Readable(Protocol):
     """Anything with a binary ``read(size)`` that returns ``b""`` at the end."""
 
-    def read(self, size: int = -1, /) -> bytes: ...
+    def read(self, size: int = -1, /) -> bytes | memoryview: ...
 
 
 @dataclass(frozen=True)

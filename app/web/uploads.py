@@ -174,7 +174,7 @@ class MultipartUpload:
         self._headers: dict[bytes, bytes] = {}
         self._part: str | None = None
         self._field_value = bytearray()
-        self._chunks: deque[bytes] = deque()
+        self._chunks: deque[bytes | memoryview] = deque()
         self.file_name: str | None = None
         self.file_finished = False
         self.fields: dict[str, str] = {}
@@ -231,8 +231,8 @@ class MultipartUpload:
                 raise DataFileError(f"choose a data file to upload (the form has no file in the field '{FILE_FIELD}')")
         return self.file_name
 
-    def read(self, size: int = -1, /) -> bytes:
-        """The file's next bytes (at most ``size``, all that have arrived when negative); ``b""`` at its end."""
+    def read(self, size: int = -1, /) -> bytes | memoryview:
+        """The file's next bytes (at most ``size``, all that have arrived when negative); empty at its end."""
         while not self._chunks and not self.file_finished:
             if not self._feed(self._ahead.take()):
                 raise DataFileError("the upload was cut off before the end of the file; try again")
@@ -240,8 +240,9 @@ class MultipartUpload:
             return b""
         chunk = self._chunks.popleft()
         if 0 <= size < len(chunk):
-            self._chunks.appendleft(chunk[size:])
-            chunk = chunk[:size]
+            view = memoryview(chunk)
+            self._chunks.appendleft(view[size:])
+            chunk = view[:size]
         return chunk
 
     # -- event loop side -------------------------------------------------------------
@@ -307,7 +308,8 @@ class MultipartUpload:
 
     def _part_data(self, data: bytes, start: int, end: int) -> None:
         if self._part == "file":
-            self._chunks.append(bytes(data[start:end]))
+            # A view, not a copy: the body's blocks are immutable bytes, and most of a block is file.
+            self._chunks.append(data if start == 0 and end == len(data) else memoryview(data)[start:end])
             return
         if self._part is None:
             return

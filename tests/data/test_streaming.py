@@ -108,6 +108,14 @@ TEXT_CASES: dict[str, tuple[str, Callable[[], bytes]]] = {
         "plots.csv",
         lambda: b"plot,yield_t\n" + b"".join(b"%d,%d\n" % (i, i) for i in range(150_000)) + b"9,9,9\n",
     ),
+    "decimal-after-the-head": (
+        "plots.csv",
+        lambda: b"plot,yield_t\n" + b"".join(b"%d,%d\n" % (i, i % 7) for i in range(150_000)) + b"9,2.5\n",
+    ),
+    "text-after-the-head-in-a-number-column": (
+        "plots.csv",
+        lambda: b"plot,yield_t\n" + b"".join(b"%d,%d.5\n" % (i, i % 7) for i in range(150_000)) + b"9,lost\n",
+    ),
     "trailing-delimiter": ("plots.csv", lambda: b"plot,yield_t,\n1,2.5,\n2,3.0,\n"),
     "header-only": ("plots.csv", lambda: b"plot,yield_t\n"),
     "duplicated-names": ("plots.csv", lambda: b"plot,plot\n1,2\n"),

@@ -40,6 +40,16 @@ def test_an_upload_becomes_a_profiled_data_version(ctx: ServiceContext, case_id:
     assert sum(bmi["histogram"]["counts"]) == len(values)
 
 
+def test_the_history_counts_rows_and_columns_in_words(ctx: ServiceContext, case_id: int) -> None:
+    upload(ctx, case_id, b"only\n1\n", "one.csv")
+    upload(ctx, case_id, simulated_csv(), "many.csv")
+
+    messages = [event.message for event in cases.get_case(ctx, case_id=case_id).events if event.kind == "dataset_uploaded"]
+    assert any("one.csv (1 row, 1 column)" in message for message in messages), messages
+    rows, columns = pd.read_csv(io.BytesIO(simulated_csv())).shape
+    assert any(f"many.csv ({rows:,} rows, {columns} columns)" in message for message in messages), messages
+
+
 def test_each_upload_is_the_next_version_and_identical_bytes_are_stored_once(
     ctx: ServiceContext, case_id: int
 ) -> None:

@@ -11,9 +11,10 @@ When the whole file is stored, :meth:`ReadWhileReceiving.table` returns what
 :func:`~app.data.readers.read_table` and
 :func:`~app.data.readers.detect_format` give for the stored file. It uses the
 early parse only where :func:`read_table` would have used the very same
-parse (same head, same layout, same pyarrow options, same bytes); for
-anything else (binary formats, files that are refused, text that needs a
-second pass) it calls :func:`read_table` on the stored file, so tables and
+parse (same head, same layout, same pyarrow options and column types,
+same bytes); for anything else (binary formats, files that are refused, a
+value that does not fit the type its column has in the head, text that needs
+a second pass) it calls :func:`read_table` on the stored file, so tables and
 messages are the same either way.
 """
 
@@ -38,7 +39,7 @@ from app.data.readers.detection import (
 from app.data.readers.frames import finish_frame
 from app.data.readers.limits import DEFAULT_LIMITS, MiB, ReadLimits
 from app.data.readers.table import quiet, read_table
-from app.data.readers.text import arrow_encoding, needs_second_pass, parse_text, text_frame
+from app.data.readers.text import arrow_encoding, needs_second_pass, number_types, parse_text, text_frame
 from app.data.readers.text_layout import TextLayout
 
 if TYPE_CHECKING:
@@ -51,7 +52,7 @@ PIPE_BYTES = 16 * MiB
 class Readable(Protocol):
     """Anything with a binary ``read(size)`` that returns ``b""`` at the end."""
 
-    def read(self, size: int = -1, /) -> bytes: ...
+    def read(self, size: int = -1, /) -> bytes | memoryview: ...
 
 
 class _Abandoned(Exception):
@@ -82,7 +83,7 @@ class _Pipe:
 
     # -- receiving side ----------------------------------------------------------
 
-    def write(self, chunk: bytes) -> None:
+    def write(self, chunk: bytes | memoryview) -> None:
         """Add the next bytes, waiting while the parser is ``limit`` bytes behind."""
         with self._changed:
             while self._waiting >= max(self._limit, self._wanted) and not self._abandoned:
@@ -194,7 +195,7 @@ class ReadWhileReceiving:
         self._pipe.fail()
         self._parser.join()
 
-    def read(self, size: int = -1, /) -> bytes:
+    def read(self, size: int = -1, /) -> bytes | memoryview:
         """The next bytes of ``source``; the parser gets them too."""
         chunk = self._source.read(size)
         if chunk:
@@ -237,7 +238,11 @@ class ReadWhileReceiving:
             if layout is None or layout.n_header_fields > self._limits.max_columns:
                 return
             arrow_table = parse_text(
-                self._pipe, layout, encoding=arrow_encoding(layout), newlines_in_values=layout.newlines_in_values
+                self._pipe,
+                layout,
+                encoding=arrow_encoding(layout),
+                newlines_in_values=layout.newlines_in_values,
+                types=number_types(head[:HEAD_BYTES], layout),
             )
             if not needs_second_pass(arrow_table, layout):
                 self._parsed = (layout, arrow_table)
