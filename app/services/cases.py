@@ -284,8 +284,9 @@ def delete_case(ctx: ServiceContext, *, case_id: int) -> DeletionReport:
     Its files go too unless another case holds the same bytes. Afterwards every
     table with a ``case_id`` column (and the judgements of its refits) is
     searched for the case, and the file store for its files; anything found is
-    an internal error. The deletion is recorded in the server's audit trail
-    (without the case's title, which went with the case).
+    an internal error. The case's own audit entries go with it; the deletion is
+    recorded in the server's audit trail with the case's title and manuscript
+    reference, who deleted it and how much of each kind went (:func:`removed_words`).
     """
     with ctx.files_lock:
         with ctx.transaction() as session:
@@ -293,18 +294,18 @@ def delete_case(ctx: ServiceContext, *, case_id: int) -> DeletionReport:
             hashes = {dataset.sha256 for dataset in case.datasets}
             refit_ids = [refit.id for refit in case.refits]
             counts = _rows_of(session, case_id, refit_ids)
-            reference = case.reference
+            subject = f"case {case_id}: {case.title}" + (f" ({case.reference})" if case.reference else "")
             session.delete(case)
             session.flush()
             still_used = set(session.scalars(select(Dataset.sha256).where(Dataset.sha256.in_(hashes))).all())
+            erased = hashes - still_used
             record_audit(
                 session,
                 actor=ctx.actor,
                 action="case_deleted",
-                subject=f"case {case_id}" + (f" ({reference})" if reference else ""),
-                detail=", ".join(f"{table}: {count}" for table, count in counts.items() if count),
+                subject=subject,
+                detail=removed_words(counts, files_erased=len(erased), files_kept=len(hashes & still_used)),
             )
-        erased = hashes - still_used
         for sha256 in erased:
             ctx.files.delete(sha256)
     ctx.database.checkpoint()
@@ -320,6 +321,28 @@ def delete_case(ctx: ServiceContext, *, case_id: int) -> DeletionReport:
         files_kept_for_other_cases=len(hashes & still_used),
         verified=True,
     )
+
+
+REMOVED_ROWS = (
+    ("datasets", "data version", "data versions"),
+    ("claims", "claim version", "claim versions"),
+    ("refits", "refit", "refits"),
+    ("judgements", "judgement or note", "judgements and notes"),
+    ("events", "history line", "history lines"),
+    ("case_access", "access grant", "access grants"),
+    ("session_links", "session link", "session links"),
+    ("audit_entries", "audit entry of the case", "audit entries of the case"),
+)
+"""Tables whose rows go with a case, and their names in words (one, several) for the deletion record."""
+
+
+def removed_words(counts: dict[str, int], *, files_erased: int, files_kept: int) -> str:
+    """What a deletion removed, in words: ``removed 2 data versions, 1 claim version, 0 refits, ...``."""
+    parts = [f"{counts.get(table, 0)} {one if counts.get(table, 0) == 1 else several}" for table, one, several in REMOVED_ROWS]
+    files = f"{files_erased} file{'' if files_erased == 1 else 's'} erased"
+    if files_kept:
+        files += f", {files_kept} kept because another case holds the same bytes"
+    return f"removed {', '.join(parts)}; {files}"
 
 
 def _rows_of(session: Session, case_id: int, refit_ids: list[int]) -> dict[str, int]:

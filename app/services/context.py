@@ -7,16 +7,22 @@ import threading
 from collections.abc import Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass, field
+from datetime import timedelta
 
 from sqlalchemy.orm import Session
 
 from app.auth.actors import SERVER, Actor
 from app.auth.passwords import Hasher
+from app.auth.rate_limit import RefusalTally
 from app.services.jobs import JobRunner
 from app.settings import Settings
 from app.store import migrate
 from app.store.database import Database
 from app.store.files import FileStore
+
+
+REFUSAL_ENTRY_EVERY = timedelta(minutes=1)
+"""At most one audit entry per account this often for sign-in attempts refused by the limits."""
 
 
 @dataclass
@@ -36,6 +42,8 @@ class ServiceContext:
     hasher: Hasher
     files_lock: threading.Lock = field(default_factory=threading.Lock)
     """Held while a file is added or removed, so a delete never races an upload of the same bytes."""
+    refusals: RefusalTally = field(default_factory=lambda: RefusalTally(every=REFUSAL_ENTRY_EVERY))
+    """Sign-in attempts refused by the limits and not yet in the audit trail (see :mod:`app.services.sign_in`)."""
     actor: Actor = SERVER
     """Who is acting; the server itself unless :meth:`acting_as` says otherwise."""
 
@@ -59,8 +67,11 @@ class ServiceContext:
         return dataclasses.replace(self, actor=actor)
 
     def close(self) -> None:
-        """Stop the worker (running refits finish first), then close the file store and the database."""
+        """Stop the worker (running refits finish first), record refused sign-ins not yet recorded, close the stores."""
+        from app.services.sign_in import record_untold_refusals  # sign_in builds on this module
+
         self.jobs.shutdown()
+        record_untold_refusals(self)
         self.files.close()
         self.database.dispose()
 

@@ -39,6 +39,8 @@ SESSION_OWNER = (
 """The person behind a live session; built once, since it runs before every page."""
 
 FAILED = "sign_in_failed"
+REFUSED = "sign_in_refused"
+"""Attempts refused by the limits before the password was checked (they do not count as failures)."""
 SUCCEEDED = "signed_in"
 MAX_NAME_TRIED = 100
 
@@ -76,7 +78,15 @@ def sign_in(ctx: ServiceContext, *, name: str, password: str, address: str) -> S
     """
     name = normalise_name(name)[:MAX_NAME_TRIED]
     now = utc_now()
-    _check_limits(ctx, name=name, address=address, now=now)
+    try:
+        _check_limits(ctx, name=name, address=address, now=now)
+    except TooManyAttempts:
+        count = ctx.refusals.refused(name, now=now)
+        if count is not None:
+            _record_refusals(ctx, name, count, address=address)
+        raise
+    for untold, count in ctx.refusals.take(name).items():
+        _record_refusals(ctx, untold, count, address=address)
     with ctx.reading() as session:
         user = session.scalars(select(User).where(User.name == name)).one_or_none()
         stored = user.password_hash if user is not None else None
@@ -99,6 +109,27 @@ def sign_in(ctx: ServiceContext, *, name: str, password: str, address: str) -> S
         if rehashed is not None:
             user.password_hash = rehashed
         return _open_session(ctx, session, user, address=address)
+
+
+def record_untold_refusals(ctx: ServiceContext) -> None:
+    """Write the refused attempts still waiting for their account's next audit entry (when the server stops)."""
+    for name, count in ctx.refusals.take().items():
+        _record_refusals(ctx, name, count, address="")
+
+
+def _record_refusals(ctx: ServiceContext, name: str, count: int, *, address: str) -> None:
+    """One audit entry for ``count`` attempts on an account refused by the limits."""
+    attempts = "1 attempt" if count == 1 else f"{count} attempts"
+    with ctx.transaction() as session:
+        record_audit(
+            session,
+            actor=Actor(name=name or "(no name)", kind="user", via="sign-in form"),
+            action=REFUSED,
+            subject=name,
+            detail=f"{attempts} refused without checking the password: too many recent failed sign-ins for this "
+            "account or from this address (one entry a minute at most; it counts the attempts since the last one)",
+            address=address,
+        )
 
 
 def sign_out(ctx: ServiceContext, *, secret: str, address: str) -> None:

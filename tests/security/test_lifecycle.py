@@ -100,11 +100,20 @@ def test_a_file_shared_with_another_case_stays_for_that_case(ctx: ServiceContext
     assert len(list(ctx.settings.files_dir.glob("??/*"))) == 1
 
 
-def test_the_deletion_is_recorded_in_the_servers_trail_without_the_title(ctx: ServiceContext, spec: dict[str, object]) -> None:
-    ids = reviewed_case(ctx, title=f"Title {MARKER}", csv=(DEMO_DIR / "data.csv").read_bytes(), spec=spec)
-    cases.delete_case(ctx, case_id=ids.case_id)
+def test_the_deletion_is_recorded_naming_the_case_who_deleted_it_and_what_went(
+    ctx: ServiceContext, spec: dict[str, object]
+) -> None:
+    ids = a_case_with_everything(ctx, spec, (DEMO_DIR / "data.csv").read_bytes())
+    coordinator = ctx.acting_as(Actor(name="cora", kind="user", role=Role.COORDINATOR, user_id=None, via="web session"))
+
+    cases.delete_case(coordinator, case_id=ids.case_id)
+
     entry = audit.server_trail(ctx).entries[0]
-    assert entry.action == "case_deleted" and entry.subject.startswith(f"case {ids.case_id}")
+    assert (entry.action, entry.actor, entry.case_id) == ("case_deleted", "cora (web session)", None)
+    assert entry.subject == f"case {ids.case_id}: To be deleted (TO BE DELETED)"
+    assert entry.detail.startswith("removed 1 data version, 1 claim version, 1 refit, 1 judgement or note, ")
+    assert ", 1 access grant, 1 session link, " in entry.detail
+    assert entry.detail.endswith("; 1 file erased")
     assert MARKER not in entry.subject + entry.detail
 
 
