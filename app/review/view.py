@@ -21,14 +21,14 @@ NAIVE_ESTIMATORS = ("ols", "ols_with_treatment", "pooled_ols", "random_effects")
 INSTRUMENTED_ESTIMATORS = ("2sls", "liml", "fuller1", "fuller4", "gmm", "within_2sls")
 """Estimators that use only the variation the instruments predict."""
 
-DEFAULT_ESTIMATOR_BY_DESIGN = {
-    "iv": "2sls",
-    "mediation": "2sls",
-    "regression": "ols",
-    "panel": "within",
-    "selection": "heckman_two_step",
+DEFAULT_ESTIMATORS_BY_DESIGN = {
+    "iv": ("2sls",),
+    "mediation": ("2sls",),
+    "regression": ("ols",),
+    "panel": ("within",),
+    "selection": ("heckman_two_step", "control_function"),
 }
-"""Estimator assumed when the claim does not name the one the manuscript reports."""
+"""Estimators assumed, first found first, when the claim does not name the one the manuscript reports."""
 
 VARIANCE_WORDS = {
     "homoskedastic": "classical (homoskedastic)",
@@ -158,13 +158,14 @@ class FindingsView:
         stated = self.claimed.get("estimator")
         if isinstance(stated, str):
             return stated
-        default = DEFAULT_ESTIMATOR_BY_DESIGN.get(self.design)
+        defaults = DEFAULT_ESTIMATORS_BY_DESIGN.get(self.design, ())
         if self.design == "iv" and not self.has_instruments:
-            default = "ols"
-        if default and self.row(default) is not None:
-            return default
+            defaults = ("ols",)
+        for default in defaults:
+            if self.row(default) is not None:
+                return default
         rows = self.rows_for(self.focal_term)
-        return str(rows[0].get("estimator")) if rows else default
+        return str(rows[0].get("estimator")) if rows else next(iter(defaults), None)
 
     @property
     def claim_uses_instruments(self) -> bool:

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import pytest
 
+from app.review.checklist import build_checklist
 from tests.review.findings_builder import iv_findings, result, row, with_claim, with_diagnostic, with_rows
 
 MEDIATOR = "design.mediator"
@@ -90,3 +91,95 @@ def test_an_instrumented_mediator_claim_whose_arms_disagree_is_serious(item):
     assert "coupon_arm 0.2100" in found.evidence
     agreeing = item(with_diagnostic(findings, "mediation", {**only_through, "p_value": 0.4}), MEDIATOR)
     assert agreeing.standing == "concern"
+
+
+def chosen_treatment(estimator: str | None, p_value: float, *, instruments: list[str] | None = None) -> dict:
+    """A selection claim about a binary treatment people choose (no ``selected`` column), fitted by the control function."""
+    instruments = ["schedule_lottery"] if instruments is None else instruments
+    claimed = {"estimator": estimator} if estimator else {"estimator": None}
+    findings = with_claim(iv_findings(), design="selection", instruments=instruments, selected=None, claimed=claimed)
+    findings["sample"]["columns"]["instruments"] = instruments
+    findings["estimators"] += [{"code": "control_function", "name": "Control function (probit first stage)"}]
+    findings = with_rows(findings, row("control_function", 0.31, 0.07))
+    for key in ("first_stage", "effective_f", "hansen_j", "sargan", "anderson_rubin", "clr", "kleibergen_paap_rk_lm", "control_function"):
+        findings = with_diagnostic(findings, key, None)
+    return with_diagnostic(findings, "treatment_selection", result(2.1, p_value, df=496, distribution="t"))
+
+
+@pytest.mark.parametrize(("p_value", "standing"), [(0.05, "sound"), (0.0499, "serious"), (0.0501, "sound")])
+def test_a_chosen_treatment_claimed_by_ols_when_the_treatment_test_rejects(item, p_value, standing):
+    found = item(chosen_treatment("ols", p_value), SELECTION)
+    assert found.standing == standing
+    assert "OLS: 0.6100" in found.evidence
+    assert "Control function (probit first stage): 0.3100 [0.1728, 0.4472]" in found.evidence
+
+
+def test_the_treatment_test_question_flags_rather_than_asserts(item):
+    found = item(chosen_treatment("ols", 1e-9), SELECTION)
+    assert found.question.startswith("The test suggests that training_hours was chosen for reasons related to weekly_sales; if so")
+
+
+def test_a_control_function_claim_is_judged_on_its_excluded_variables(item):
+    assert item(chosen_treatment("control_function", 1e-9), SELECTION).standing == "sound"
+    assert item(chosen_treatment("control_function", 1e-9, instruments=[]), SELECTION).standing == "concern"
+
+
+def test_a_chosen_treatment_claim_without_a_stated_estimator_is_read_as_the_control_function(item):
+    findings = chosen_treatment(None, 1e-9)
+    assert "(Control function (probit first stage), as claimed)" in build_checklist(findings).verdict.summary
+
+
+def test_a_rejected_treatment_test_makes_the_verdict_not_supported(item):
+    unprinted = with_claim(chosen_treatment("ols", 1e-9), claimed={"estimate": None, "std_error": None, "n_obs": None})
+    verdict = build_checklist(unprinted).verdict
+    assert verdict.code == "not_supported"
+    assert "design.selection" in verdict.drivers
+
+
+@pytest.mark.parametrize(
+    "item_id",
+    ["relevance.effective_f", "relevance.first_stage_f", "relevance.identification", "overidentification.joint_test", "inference.weak_iv_robust"],
+)
+def test_instrument_items_in_the_selection_design_say_why_they_do_not_apply(item, item_id):
+    found = item(chosen_treatment("ols", 0.5), item_id)
+    assert found.standing == "not_applicable"
+    assert "refit was made without it" not in found.evidence
+    assert "enter the probit for the treatment in the control function" in found.evidence
+
+
+def test_the_hausman_warning_reaches_the_panel_item(item):
+    warning = "the variance difference is not positive definite (3 of 10 eigenvalues are not positive): read the Mundlak test instead"
+    findings = with_diagnostic(panel("within", 0.2), "hausman_fe_re", result(12.0, 0.03, df=7, distribution="chi2", warning=warning))
+    assert f"Warning on the Hausman test: {warning}." in item(findings, PANEL).evidence
+    clean = with_diagnostic(panel("within", 0.2), "hausman_fe_re", result(12.0, 0.03, df=7, distribution="chi2"))
+    assert "Warning" not in item(clean, PANEL).evidence
+
+
+def test_an_undefined_hausman_test_says_why(item):
+    undefined = result(standing="undefined", reason="the difference of the variances has no positive eigenvalue")
+    found = item(with_diagnostic(panel("within", 0.2), "hausman_fe_re", undefined), PANEL)
+    assert "Classical Hausman test: not computed (the difference of the variances has no positive eigenvalue)." in found.evidence
+
+
+@pytest.mark.parametrize(("p_value", "standing"), [(0.05, "concern"), (0.0499, "serious"), (0.0501, "concern")])
+def test_mediator_over_identification_threshold(item, p_value, standing):
+    only_through = result(6.0, p_value, df=1, distribution="chi2", drift_per_unit_direct_effect=[])
+    assert item(with_diagnostic(mediation("2sls"), "mediation", only_through), MEDIATOR).standing == standing
+
+
+def test_disagreeing_arms_are_read_as_a_flag_with_both_explanations(item):
+    only_through = result(6.0, 0.01, df=1, distribution="chi2", drift_per_unit_direct_effect=[])
+    found = item(with_diagnostic(mediation("2sls"), "mediation", only_through), MEDIATOR)
+    assert "The test suggests that the arms do not agree" in found.evidence
+    assert "different local effects" in found.evidence
+    assert "so at least one acts" not in found.evidence
+
+
+@pytest.mark.parametrize(
+    ("findings", "item_id"),
+    [(lambda: panel("random_effects", 0.001), PANEL), (lambda: selection("ols", 0.001, excluded=["children_under_six"]), SELECTION)],
+)
+def test_design_questions_flag_rather_than_assert(item, findings, item_id):
+    question = item(findings(), item_id).question
+    assert "The test suggests" in question or "The Mundlak test suggests" in question
+    assert "are correlated with the regressors, so" not in question and "is significant, so" not in question

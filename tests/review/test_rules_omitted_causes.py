@@ -146,3 +146,26 @@ def test_shared_source_is_left_to_the_reviewer(item):
     found = item(iv_findings(), "omitted_causes.shared_source")
     assert found.standing == "reviewer_judgement"
     assert found.question
+
+
+def test_the_question_names_a_sign_reversal_when_the_adjusted_estimate_crosses_zero(item):
+    bounds = sensitivity((1.0, 0.2, 0.6), (2.0, -0.3, -0.1))
+    found = item(with_diagnostic(ols_claim(), "omitted_cause_sensitivity", bounds), SENSITIVITY)
+    assert found.standing == "concern"
+    assert "2 times as strong as tenure_years would reverse the sign of the estimate" in found.question
+
+
+def test_the_question_says_indistinguishable_when_only_the_interval_reaches_zero(item):
+    bounds = sensitivity((1.0, 0.2, 0.6), (2.0, -0.05, 0.5))
+    found = item(with_diagnostic(ols_claim(), "omitted_cause_sensitivity", bounds), SENSITIVITY)
+    assert "would make the estimate indistinguishable from zero" in found.question
+
+
+def test_a_capped_outcome_bound_says_so_instead_of_a_zero_width_interval(item):
+    bounds = sensitivity((1.0, 0.2, 0.6), (2.0, -0.6417, -0.6417))
+    bounds[0]["benchmark_bounds"][1].update(r2yz_dx_capped=True, adjusted_estimate=-0.6417)
+    found = item(with_diagnostic(ols_claim(), "omitted_cause_sensitivity", bounds), SENSITIVITY)
+    assert "A cause 2 x as strong as tenure_years: adjusted estimate -0.6417; the bound" in found.evidence
+    assert "capped there" in found.evidence
+    assert "[-0.6417, -0.6417]" not in found.evidence
+    assert "would reverse the sign of the estimate" in found.question

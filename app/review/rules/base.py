@@ -90,9 +90,30 @@ def needs_instruments(view: FindingsView) -> Outcome | None:
     return not_applicable("The claim names no excluded instruments, so there is no instrument to check.")
 
 
+LINEAR_IV_ELSEWHERE = {
+    "selection": "the instruments ({instruments}) enter the probit for the treatment in the control function, not a "
+    "linear first stage; the test of an exogenous treatment is under the design-specific checks",
+    "panel": "the instruments ({instruments}) enter the fixed-effects 2SLS fit, for which only the first stage is "
+    "computed",
+}
+"""Designs whose instruments are used by another estimator than linear IV, and how."""
+
+
 def needs_instrument_diagnostic(view: FindingsView, found: Lookup) -> Outcome | None:
-    """Not applicable when the claim names no excluded instruments or the diagnostic ``found`` is unavailable, else None."""
-    return needs_instruments(view) or unavailable(found)
+    """Not applicable when the claim names no excluded instruments or the diagnostic ``found`` is unavailable, else None.
+
+    A linear-IV diagnostic missing from a design that uses its instruments
+    another way says so, rather than that the refit was made without it.
+    """
+    if (skip := needs_instruments(view)) is not None:
+        return skip
+    if found.state == "missing" and view.design in LINEAR_IV_ELSEWHERE:
+        how = LINEAR_IV_ELSEWHERE[view.design].format(instruments=", ".join(view.instruments))
+        return not_applicable(
+            f"The '{found.key}' diagnostic belongs to the linear instrumental-variable refit, which the "
+            f"{view.design} design does not make: {how}."
+        )
+    return unavailable(found)
 
 
 def significant(p: float | None) -> bool:

@@ -12,7 +12,9 @@
 * ``selection``: a sample that people select into; the test of no selection
   is the inverse Mills ratio term of the Heckman two-step fit, whose
   identification is fragile without a variable excluded from the outcome
-  equation (Heckman 1979; Puhani 2000).
+  equation (Heckman 1979; Puhani 2000). For a binary treatment people choose,
+  the test is the generalized-residual term of the control function
+  (Heckman 1978; Wooldridge 2010, ch. 21).
 
 References
 ----------
@@ -20,6 +22,8 @@ Bullock, J. G., Green, D. P. and Ha, S. E. (2010). Yes, but what's the mechanism
 easy answer). Journal of Personality and Social Psychology 98(4), 550-558.
 Mundlak, Y. (1978). On the pooling of time series and cross section data. Econometrica 46(1), 69-85.
 Wooldridge, J. M. (2010). Econometric Analysis of Cross Section and Panel Data, 2nd ed. MIT Press.
+Heckman, J. J. (1978). Dummy endogenous variables in a simultaneous equation system. Econometrica 46(4),
+931-959.
 Heckman, J. J. (1979). Sample selection bias as a specification error. Econometrica 47(1), 153-161.
 Puhani, P. A. (2000). The Heckman correction for sample selection and its critique. Journal of
 Economic Surveys 14(1), 53-68.
@@ -93,7 +97,15 @@ def assess_mediator(view: FindingsView) -> Outcome:
         "What other consequences of the treatment could reach the outcome, and how are they ruled out?"
     )
     if significant(only_through_p):
-        return Outcome("serious", evidence + " The arms disagree, so at least one acts through another path.", question=question)
+        return Outcome(
+            "serious",
+            evidence
+            + " The test suggests that the arms do not agree on the mediator's effect. That happens when an arm also "
+            f"acts on {view.outcome} through another path, or when the arms move different people whose responses "
+            "to the mediator differ (different local effects); the test cannot tell which.",
+            question=question
+            + f" The arms give different estimates of {mediator}'s effect: do they move different groups of people?",
+        )
     return Outcome("concern", evidence + f" This needs {treatments} to affect {view.outcome} only through {mediator}.", question=question)
 
 
@@ -122,12 +134,7 @@ def assess_panel_effects(view: FindingsView) -> Outcome:
         f"Mundlak test that the unit effects are unrelated to the regressors ({view.variance_label}): "
         f"{statistic(test.get('statistic'), distribution=test.get('distribution'), df=test.get('df'))}, {p_value(p)}."
     ]
-    hausman = view.lookup("hausman_fe_re")
-    if hausman.usable and isinstance(hausman.value, Mapping):
-        parts.append(
-            f"Classical Hausman test: {statistic(hausman.value.get('statistic'), distribution=hausman.value.get('distribution'), df=hausman.value.get('df'))}, "
-            f"{p_value(hausman.value.get('p_value'))}."
-        )
+    parts += _hausman_evidence(view)
     for code in ("within", "random_effects", "pooled_ols"):
         row = view.row(code)
         if row:
@@ -139,11 +146,27 @@ def assess_panel_effects(view: FindingsView) -> Outcome:
             "serious",
             evidence,
             question=(
-                "The unit effects are correlated with the regressors, so random effects (or pooled OLS) mix the "
-                "effect with stable differences between units. Do the conclusions hold with fixed effects?"
+                "The Mundlak test suggests that the unit effects are related to the regressors; if they are, random "
+                "effects (or pooled OLS) mix the effect with stable differences between units. Do the conclusions "
+                "hold with fixed effects?"
             ),
         )
     return Outcome("sound", evidence)
+
+
+def _hausman_evidence(view: FindingsView) -> list[str]:
+    """The classical Hausman test with its own warning, or why it was not computed."""
+    hausman = view.lookup("hausman_fe_re")
+    if hausman.state == "undefined":
+        return [f"Classical Hausman test: not computed ({hausman.reason or 'no reason given'})."]
+    if not hausman.usable or not isinstance(hausman.value, Mapping):
+        return []
+    test = hausman.value
+    shown = statistic(test.get("statistic"), distribution=test.get("distribution"), df=test.get("df"))
+    parts = [f"Classical Hausman test: {shown}, {p_value(test.get('p_value'))}."]
+    if isinstance(test.get("warning"), str):
+        parts.append(f"Warning on the Hausman test: {test['warning']}.")
+    return parts
 
 
 def assess_effects_sampling(view: FindingsView) -> Outcome:
@@ -161,8 +184,10 @@ def assess_effects_sampling(view: FindingsView) -> Outcome:
 
 
 def assess_selection(view: FindingsView) -> Outcome:
-    if (skip := _only_for(view, "selection", "about a self-selected sample")) is not None:
+    if (skip := _only_for(view, "selection", "about a self-selected sample or treatment")) is not None:
         return skip
+    if view.claim_name("selected") is None:
+        return _assess_chosen_treatment(view)
     found = view.lookup("selection")
     if (skip := unavailable(found)) is not None:
         return skip
@@ -180,8 +205,8 @@ def assess_selection(view: FindingsView) -> Outcome:
             "serious",
             evidence,
             question=(
-                "The selection term is significant, so an analysis of the selected sample alone is biased. Do the "
-                "conclusions hold after correcting for selection?"
+                "The test suggests that entry into the sample is related to the outcome's error; if so, an analysis "
+                "of the selected sample alone is biased. Do the conclusions hold after correcting for selection?"
             ),
         )
     if not excluded:
@@ -194,6 +219,49 @@ def assess_selection(view: FindingsView) -> Outcome:
             ),
         )
     return Outcome("sound", evidence + f" Excluded from the outcome equation: {', '.join(excluded)}.")
+
+
+def _assess_chosen_treatment(view: FindingsView) -> Outcome:
+    """A binary treatment people choose: the generalized-residual test of Heckman (1978), read against the claim."""
+    found = view.lookup("treatment_selection")
+    if (skip := unavailable(found)) is not None:
+        return skip
+    test = found.value
+    p = as_number(test.get("p_value"))
+    treatment = view.focal_term or "the treatment"
+    parts = [
+        f"Test that {treatment} is unrelated to the outcome's error (generalized residual of the probit for "
+        f"{treatment}, {view.variance_label}): "
+        f"{statistic(test.get('statistic'), distribution=test.get('distribution'), df=test.get('df'))}, {p_value(p)}."
+    ]
+    for code in ("ols", "control_function"):
+        row = view.row(code)
+        if row:
+            parts.append(
+                f"{view.estimator_name(code)}: {number(row.get('estimate'))} "
+                f"{interval(row.get('ci_low'), row.get('ci_high'))}."
+            )
+    evidence = " ".join(parts)
+    if view.claim_is_naive and significant(p):
+        return Outcome(
+            "serious",
+            evidence,
+            question=(
+                f"The test suggests that {treatment} was chosen for reasons related to {view.outcome}; if so, the "
+                f"OLS estimate mixes the effect of {treatment} with those reasons. Do the conclusions hold with a "
+                "correction for the choice of treatment (such as the control function), and what made people choose it?"
+            ),
+        )
+    if not view.has_instruments:
+        return Outcome(
+            "concern",
+            evidence + f" No variable moves {treatment} without entering the outcome equation.",
+            question=(
+                "The correction for the choice of treatment is identified only through the shape of the normal "
+                f"distribution. Which variable affects the choice of {treatment} but not {view.outcome}?"
+            ),
+        )
+    return Outcome("sound", evidence + f" Variables that move the treatment only: {', '.join(view.instruments)}.")
 
 
 def _excluded_from_outcome(view: FindingsView) -> list[str]:
@@ -256,15 +324,17 @@ RULES = (
     ),
     Rule(
         id="design.selection",
-        title="Self-selection into the sample is accounted for",
+        title="Self-selection into the sample or the treatment is accounted for",
         rule=(
-            f"Serious when the claim uses the selected sample alone and the test of no selection rejects (p below "
-            f"{SIGNIFICANCE}); a concern when the correction has no variable excluded from the outcome equation."
+            f"Serious when the claim rests on OLS and the test of no selection (inverse Mills ratio term for a "
+            f"selected sample; generalized residual for a chosen treatment) rejects with p below {SIGNIFICANCE}; a "
+            "concern when the correction has no variable excluded from the outcome equation."
         ),
-        source="Heckman (1979); Puhani (2000)",
+        source="Heckman (1979); Heckman (1978); Puhani (2000); Wooldridge (2010), ch. 21",
         explanation=(
-            "If people enter the sample for reasons related to the outcome, the sample's relationship differs from "
-            "the population's. The correction needs something that affects entry but not the outcome."
+            "If people enter the sample, or take the treatment, for reasons related to the outcome, the naive "
+            "comparison mixes the effect with those reasons. The correction needs something that affects entry or "
+            "the choice but not the outcome."
         ),
         assess=assess_selection,
     ),

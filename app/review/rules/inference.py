@@ -47,7 +47,7 @@ from app.review.rules.base import (
     needs_instruments,
     not_applicable,
     significant,
-    unavailable,
+    needs_instrument_diagnostic,
 )
 from app.review.view import INSTRUMENTED_ESTIMATORS, FindingsView
 
@@ -86,7 +86,7 @@ def assess_weak_iv_robust(view: FindingsView) -> Outcome:
     found = view.lookup(preferred)
     if not found.usable:
         found = view.lookup("anderson_rubin")
-    if (skip := unavailable(found)) is not None:
+    if (skip := needs_instrument_diagnostic(view, found)) is not None:
         return skip
     name = {"clr": "Conditional likelihood-ratio (CLR)", "anderson_rubin": "Anderson-Rubin"}[found.key]
     estimator = view.claimed_estimator if view.claimed_estimator in INSTRUMENTED_ESTIMATORS else "2sls"
@@ -125,7 +125,10 @@ def assess_weak_iv_robust(view: FindingsView) -> Outcome:
         return Outcome(
             "concern",
             evidence + " An empty set means no effect size is compatible with all instruments being valid.",
-            question="The robust confidence set is empty, which rejects the model itself. Which instrument do the authors trust?",
+            question=(
+                "The robust confidence set is empty, which suggests that the model itself is misspecified. Which "
+                "instrument do the authors trust?"
+            ),
         )
     if is_unbounded(pieces):
         return Outcome(

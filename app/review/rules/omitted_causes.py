@@ -71,14 +71,18 @@ def assess_naive_vs_instrumented(view: FindingsView) -> Outcome:
     parts += _common_cause_size(view)
     evidence = " ".join(parts)
     if significant(p) and not view.claim_is_naive:
-        evidence += " The test rejects exogeneity; the claim's instrumented estimator allows for that."
+        evidence += (
+            " The test suggests that the focal regressor is not exogenous; the claim's instrumented estimator "
+            "allows for that."
+        )
     if view.claim_is_naive and significant(p):
         return Outcome(
             "serious",
             evidence,
             question=(
-                "The instrumented estimate differs from the OLS estimate beyond chance, which points to an omitted "
-                "common cause. Why do the authors base the claim on OLS, and how do they rule out that cause?"
+                "The instrumented estimate differs from the OLS estimate beyond chance, which suggests an omitted "
+                "common cause (if the instruments are valid). Why do the authors base the claim on OLS, and how do "
+                "they rule out such a cause?"
             ),
         )
     return Outcome("sound", evidence)
@@ -128,29 +132,25 @@ def assess_sensitivity(view: FindingsView) -> Outcome:
                 "and the outcome, and could an omitted cause of that strength overturn the estimate?"
             ),
         )
-    overturned = [b for b in bounds if _bound_overturns(b, estimate=as_number(data.get("estimate")))]
-    at_benchmark = [b for b in overturned if as_number(b.get("multiplier")) <= BENCHMARK_MULTIPLE]
-    if at_benchmark:
-        names = ", ".join(sorted({str(b.get("benchmark")) for b in at_benchmark}))
+    estimate = as_number(data.get("estimate"))
+    overturned = [(b, words) for b in bounds if (words := _what_the_cause_does(b, estimate=estimate)) is not None]
+    if not overturned:
+        return Outcome("sound", evidence)
+    weakest, words = min(overturned, key=lambda pair: as_number(pair[0].get("multiplier")))
+    if as_number(weakest.get("multiplier")) <= BENCHMARK_MULTIPLE:
         return Outcome(
             "serious",
             evidence,
-            question=(
-                f"An omitted cause no stronger than {names} would make the estimate indistinguishable from zero. "
-                "What rules out such a cause?"
-            ),
+            question=f"An omitted cause no stronger than {weakest.get('benchmark')} would {words}. What rules out such a cause?",
         )
-    if overturned:
-        weakest = min(overturned, key=lambda b: as_number(b.get("multiplier")))
-        return Outcome(
-            "concern",
-            evidence,
-            question=(
-                f"An omitted cause {setting(weakest.get('multiplier'))} times as strong as {weakest.get('benchmark')} "
-                "would make the estimate indistinguishable from zero. Can the authors argue that no such cause exists?"
-            ),
-        )
-    return Outcome("sound", evidence)
+    return Outcome(
+        "concern",
+        evidence,
+        question=(
+            f"An omitted cause {setting(weakest.get('multiplier'))} times as strong as {weakest.get('benchmark')} "
+            f"would {words}. Can the authors argue that no such cause exists?"
+        ),
+    )
 
 
 def _benchmark_bounds(data: Mapping[str, Any]) -> list[Mapping[str, Any]]:
@@ -158,13 +158,22 @@ def _benchmark_bounds(data: Mapping[str, Any]) -> list[Mapping[str, Any]]:
     return [b for b in bounds if isinstance(b, Mapping)] if isinstance(bounds, list) else []
 
 
-def _bound_overturns(bound: Mapping[str, Any], *, estimate: float | None) -> bool:
-    """True when the adjusted interval contains zero or the adjusted estimate has crossed it."""
+def _what_the_cause_does(bound: Mapping[str, Any], *, estimate: float | None) -> str | None:
+    """What a bounded omitted cause does to the estimate, in words; None when the conclusion survives it.
+
+    The adjusted estimate crossing zero is named as a reversal (or as reaching
+    zero); otherwise an adjusted interval containing zero (or missing) makes
+    the estimate indistinguishable from zero.
+    """
+    adjusted = as_number(bound.get("adjusted_estimate"))
+    if estimate is not None and adjusted is not None and adjusted * estimate < 0:
+        return "reverse the sign of the estimate"
+    if estimate is not None and adjusted == 0:
+        return "bring the estimate to zero"
     low, high = as_number(bound.get("adjusted_ci_low")), as_number(bound.get("adjusted_ci_high"))
     if low is None or high is None or low <= 0.0 <= high:
-        return True
-    adjusted = as_number(bound.get("adjusted_estimate"))
-    return estimate is not None and adjusted is not None and adjusted * estimate <= 0
+        return "make the estimate indistinguishable from zero"
+    return None
 
 
 def analysed_fit(view: FindingsView, data: Mapping[str, Any]) -> str:
@@ -200,7 +209,13 @@ def _sensitivity_evidence(data: Mapping[str, Any], *, name: str) -> str:
     ]
     for bound in _benchmark_bounds(data):
         head = f"A cause {setting(bound.get('multiplier'))} x as strong as {bound.get('benchmark')}"
-        if bound.get("available"):
+        if bound.get("available") and bound.get("r2yz_dx_capped") is True:
+            parts.append(
+                f"{head}: adjusted estimate {number(bound.get('adjusted_estimate'))}; the bound on the cause's partial "
+                "R-squared with the outcome reached 1 and was capped there, where the adjusted standard error is "
+                "zero, so no interval is shown."
+            )
+        elif bound.get("available"):
             parts.append(
                 f"{head}: adjusted estimate {number(bound.get('adjusted_estimate'))}, interval "
                 f"{interval(bound.get('adjusted_ci_low'), bound.get('adjusted_ci_high'))}."
@@ -257,14 +272,14 @@ RULES = (
         id="omitted_causes.naive_vs_instrumented",
         title="The claimed estimator allows for an omitted common cause",
         rule=(
-            f"A control-function test with p below {SIGNIFICANCE} says the focal regressor is correlated with the "
-            "error; a claim that rests on OLS is then in doubt."
+            f"A control-function test with p below {SIGNIFICANCE} flags the focal regressor as possibly correlated "
+            "with the error (the test suggests it; it does not prove it); a claim that rests on OLS is then in doubt."
         ),
         source="Hausman (1978); Wooldridge (2010), sec. 6.3.1",
         explanation=(
             "If something not in the model drives both the regressor and the outcome, the plain regression mixes its "
             "effect into the estimate. The instruments give a second estimate free of that mix, and a large gap "
-            "between the two is the sign of such a cause."
+            "between the two suggests such a cause (if the instruments are valid)."
         ),
         assess=assess_naive_vs_instrumented,
     ),

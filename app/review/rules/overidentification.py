@@ -41,7 +41,6 @@ from app.review.rules.base import (
     needs_instrument_diagnostic,
     not_applicable,
     significant,
-    unavailable,
 )
 from app.review.view import FindingsView, Lookup
 
@@ -71,8 +70,9 @@ def assess_joint_test(view: FindingsView) -> Outcome:
             "serious",
             evidence,
             question=(
-                f"The over-identification test rejects: {', '.join(view.instruments)} do not point to the same effect. "
-                "Which instrument do the authors consider valid, and what does the estimate with that instrument alone show?"
+                f"The over-identification test suggests that {', '.join(view.instruments)} do not point to the same "
+                "effect: one may be invalid, or each may move people whose effects differ. Which instrument do the "
+                "authors consider valid, and what does the estimate with that instrument alone show?"
             ),
         )
     return Outcome("sound", evidence + " Agreement among instruments does not prove that any of them is valid.")
@@ -93,13 +93,13 @@ def assess_blamed_instrument(view: FindingsView) -> Outcome:
                 "concern",
                 evidence,
                 question=(
-                    "The joint test rejects, but with these instruments the data cannot say which one is invalid. "
+                    "The joint test rejects, but with these instruments the data cannot say which one, if any, is invalid. "
                     "Which instrument's exclusion argument is the stronger, and what does it give alone?"
                 ),
             )
         return Outcome("sound", evidence)
     found = view.lookup("c_statistic")
-    if (skip := unavailable(found)) is not None:
+    if (skip := needs_instrument_diagnostic(view, found)) is not None:
         return skip
     entries = _c_entries(found.value)
     if not entries:
@@ -170,7 +170,8 @@ RULES = (
         title="The instruments agree with each other",
         rule=(
             f"The over-identification test (Hansen J with robust or clustered errors, Sargan with classical ones) "
-            f"with p below {SIGNIFICANCE} means at least one instrument is invalid or effects differ."
+            f"with p below {SIGNIFICANCE} flags that at least one instrument may be invalid, or that effects differ "
+            "across the people each instrument moves."
         ),
         source="Sargan (1958); Hansen (1982)",
         explanation=(

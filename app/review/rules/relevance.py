@@ -40,7 +40,6 @@ from app.review.rules.base import (
     needs_instruments,
     not_applicable,
     significant,
-    unavailable,
     worst,
 )
 from app.review.view import FindingsView
@@ -159,7 +158,7 @@ def assess_joint_strength(view: FindingsView) -> Outcome:
         return not_applicable("One focal regressor: the effective F and the first-stage F cover its strength.")
     kind = "cragg_donald_f" if view.variance_kind == "homoskedastic" else "kleibergen_paap_rk_f"
     found = view.lookup(kind)
-    if (skip := unavailable(found)) is not None:
+    if (skip := needs_instrument_diagnostic(view, found)) is not None:
         return skip
     value = as_number(found.value.get("statistic"))
     target = _stock_yogo_size_value(view)
