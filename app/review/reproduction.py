@@ -1,10 +1,13 @@
 """Do the manuscript's printed numbers reproduce?
 
 A printed number stands for every value that rounds to it: ``0.13`` covers
-0.125 to 0.135, ``0.130`` only 0.1295 to 0.1305, ``1.2e3`` 1150 to 1250
-(half a unit of the last printed digit either side). Both ends count as a
-match, because manuscripts round ties either way. The sample size must
-match exactly.
+[0.125, 0.135), ``0.130`` only [0.1295, 0.1305), ``1.2e3`` [1150, 1250)
+(half a unit of the last printed digit either side). The end nearer zero
+counts, because a tie there rounds up under the common half-away-from-zero
+rule; the end farther from zero does not, because 0.135 rounds to 0.14 under
+that rule and under round-half-to-even alike. For a negative number the
+ranges mirror: ``-0.13`` covers (-0.135, -0.125]. The sample size must match
+exactly.
 
 When a number does not reproduce, the comparison lists the causes that are
 visible in the findings: a different sample (rows with missing values,
@@ -43,11 +46,13 @@ class PrintedNumber:
     places: int
 
     def covers(self, value: float | None) -> bool:
-        """True when ``value`` rounds to the printed number."""
+        """True when ``value`` rounds to the printed number (the end farther from zero excluded)."""
         if value is None:
             return False
         slack = (self.high - self.low) / 2 * RELATIVE_SLACK
-        return self.low - slack <= value <= self.high + slack
+        if self.value >= 0:
+            return self.low - slack <= value < self.high
+        return self.low < value <= self.high + slack
 
     def near(self, value: float | None) -> bool:
         """True when ``value`` rounds to a neighbour of the printed number (one unit off in the last digit)."""

