@@ -36,6 +36,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
 def run(arguments: argparse.Namespace) -> int:
     from app.review.checklist import build_checklist
     from app.review.reports import REPORT_FORMATS
+    from app.review.reproduction import variants_for_claim
 
     data_file: Path = arguments.data_file
     if not data_file.is_file():
@@ -44,7 +45,7 @@ def run(arguments: argparse.Namespace) -> int:
     frame = read_table(data_file)
     provenance = refit_provenance(dataset_sha256=file_sha256(data_file), spec=spec, data_file_name=data_file.name)
     findings = refit(frame, spec, provenance=provenance).to_dict()
-    checklist = build_checklist(findings)
+    checklist = build_checklist(findings, variants=variants_for_claim(frame, spec))
     text = REPORT_FORMATS[arguments.format].render(findings, checklist, data_file_name=data_file.name)
     if arguments.output is None:
         sys.stdout.write(text if text.endswith("\n") else text + "\n")

@@ -212,6 +212,17 @@ def first_stage_f_forms(view: FindingsView) -> list[tuple[str, float]]:
     return forms
 
 
+def variants_for_claim(frame: pd.DataFrame, spec: ClaimSpec) -> dict[str, dict[str, Any]] | None:
+    """:func:`covariance_variants` when the claim prints a standard error (the only number they explain), else None.
+
+    The web worker and ``secondstage check`` both call this, so a standard
+    error that does not reproduce gets the same explanation everywhere.
+    """
+    if spec.claimed is None or spec.claimed.std_error is None:
+        return None
+    return covariance_variants(frame, spec)
+
+
 def covariance_variants(frame: pd.DataFrame, spec: ClaimSpec) -> dict[str, dict[str, Any]]:
     """The claimed estimator's focal estimate and standard error under other variance estimators.
 
