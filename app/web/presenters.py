@@ -144,8 +144,146 @@ def group_diagnostics(diagnostics: dict[str, Any]) -> list[DiagnosticGroup]:
             groups.append(DiagnosticGroup(id=group_id, title=title, meaning=meaning, results=results))
     rest = [entry for key, value in diagnostics.items() if key not in placed for entry in _entries(key, value)]
     if rest:
-        groups.append(DiagnosticGroup(id="other", title=OTHER_DIAGNOSTICS[0], meaning=OTHER_DIAGNOSTICS[1], results=rest))
+        title, meaning = OTHER_DIAGNOSTICS
+        groups.append(DiagnosticGroup(id="other", title=title, meaning=meaning, results=rest))
     return groups
+
+
+NESTED_FIELDS = {
+    "anderson_rubin": ("Bootstrap Anderson-Rubin test", "record"),
+    "arms": ("Treatment arms", "plain"),
+    "benchmark_bounds": ("An omitted cause as strong as a measured covariate", "table"),
+    "by_covariate": ("Balance, covariate by covariate", "table"),
+    "by_regressor": ("By focal regressor", "table"),
+    "conditioning": ("Each balance regression also includes", "plain"),
+    "contour": ("Adjusted estimate over a grid of omitted-cause strengths", "grid"),
+    "criteria": ("Critical values, criterion by criterion", "table"),
+    "critical_values": ("Critical values by the largest bias allowed", "table"),
+    "difference": ("Fixed minus random effects, term by term", "indexed"),
+    "disturbance_covariance": ("Covariance of the system's disturbances", "indexed"),
+    "drift_per_unit_direct_effect": ("How far 2SLS moves per unit of direct effect, arm by arm", "table"),
+    "equations": ("Equations", "plain"),
+    "estimates": ("The mediator's effect under each estimator", "record"),
+    "identified_set": ("Identified set (from the controlled to the bias-adjusted estimate)", "interval"),
+    "instruments": ("Instruments", "plain"),
+    "notes": ("Notes", "text"),
+    "roots": ("Solutions for the bias-adjusted estimate", "table"),
+    "skipped": ("Covariates left out", "table"),
+    "terms": ("Terms", "plain"),
+    "theta": ("Share θ of each unit's mean taken out (0 pooled OLS, 1 within), across units", "record"),
+    "unit_means_dropped_as_collinear": ("Unit means dropped as collinear", "plain"),
+    "wald": ("Bootstrap t-test of the 2SLS coefficient", "record"),
+    "warnings": ("Warnings", "text"),
+}
+"""Fields of a result that hold a list or a record: (label, how shown), after :data:`~app.web.labels.DETAIL_FIELDS`.
+
+Shown as ``plain`` or ``text`` (the items in a line), ``interval`` (a pair as
+``[low, high]``), ``table`` (a list of records: one row each), ``record``
+(one label and value a row), ``indexed`` (values beside the names listed in
+:data:`INDEXED_BY`) or ``grid`` (the omitted-cause grid, thinned).
+"""
+
+NESTED_FIELDS_BY_DIAGNOSTIC = {
+    ("c_statistic", "instruments"): ("Instruments under suspicion", "plain"),
+    ("disturbance_correlation", "by_regressor"): ("Correlation of the disturbances, by focal regressor", "table"),
+    ("plausibly_exogenous", "by_regressor"): ("Direct effect that overturns the claim, by focal regressor", "table"),
+    ("residual_correlation", "by_regressor"): ("Correlation of first-stage and structural residuals", "table"),
+}
+"""Nested fields whose meaning depends on the diagnostic: (diagnostic key, field) to (label, how shown)."""
+
+RECORD_FIELDS = {
+    "adjusted_ci_high": ("Adjusted interval, upper end", "number"),
+    "adjusted_ci_low": ("Adjusted interval, lower end", "number"),
+    "adjusted_estimate": ("Adjusted estimate", "number"),
+    "adjusted_std_error": ("Adjusted std. error", "number"),
+    "adjusted_t": ("Adjusted t", "number"),
+    "admissible": ("Admissible (both variances positive)", "text"),
+    "arm": ("Treatment arm", "plain"),
+    "available": ("Possible", "text"),
+    "benchmark": ("Benchmark covariate", "plain"),
+    "benchmark_partial_r2_focal": ("Benchmark's partial R² with the focal regressor", "number"),
+    "benchmark_partial_r2_outcome": ("Benchmark's partial R² with the outcome", "number"),
+    "bias": ("Bias", "number"),
+    "bounds": ("Bound on each instrument's direct effect", "number"),
+    "boxes": ("Union of intervals as the direct effect grows", "table"),
+    "break_even_delta": ("Direct effect at which the interval reaches zero", "number"),
+    "break_even_share_of_reduced_form": ("The same, as a share of the reduced form", "percent"),
+    "ci_high": ("Interval, upper end", "number"),
+    "ci_low": ("Interval, lower end", "number"),
+    "coefficients": ("Coefficients on the instruments", "table"),
+    "correlation": ("Correlation", "number"),
+    "covariate": ("Covariate", "plain"),
+    "criterion": ("Criterion", "text"),
+    "critical_t": ("Critical |t|", "number"),
+    "critical_value": ("Critical value", "number"),
+    "critical_values": ("Critical values", "table"),
+    "delta": ("Direct effect up to", "setting"),
+    "df": ("Degrees of freedom", "df"),
+    "drift": ("Shift of 2SLS per unit of direct effect", "number"),
+    "estimate": ("Estimate", "number"),
+    "exceeds": ("Statistic above it", "text"),
+    "excludes_zero": ("Excludes zero", "text"),
+    "generalized": ("Generalized critical value", "number"),
+    "generalized_k_eff": ("Effective number of instruments, generalized", "number"),
+    "instrument": ("Instrument", "plain"),
+    "interval": ("Union of the intervals", "interval"),
+    "interval_without_direct_effect": ("Interval without a direct effect", "interval"),
+    "meaning": ("What it limits", "text"),
+    "method": ("Method", "text"),
+    "multiplier": ("Times as strong as the benchmark", "setting"),
+    "null_hypothesis": ("Null hypothesis", "text"),
+    "observed_index_variance": ("Variance of the index of observed causes", "number"),
+    "p_value": ("p-value", "p_value"),
+    "r2dz_x": ("Omitted cause's partial R² with the focal regressor", "number"),
+    "r2yz_dx": ("Omitted cause's partial R² with the outcome", "number"),
+    "r2yz_dx_capped": ("Outcome share capped at 1", "text"),
+    "reason": ("Why", "text"),
+    "regressor": ("Focal regressor", "plain"),
+    "share_of_reduced_form": ("Direct effect up to this share of the reduced form", "percent"),
+    "simplified": ("Simplified critical value", "number"),
+    "simplified_k_eff": ("Effective number of instruments, simplified", "number"),
+    "statistic": ("Statistic", "number"),
+    "std_error": ("Std. error", "number"),
+    "tabulated": ("Tabulated", "text"),
+    "tau": ("Largest bias allowed (τ, share of the benchmark)", "percent"),
+    "threshold": ("Largest value tolerated", "percent"),
+    "unobserved_index_variance": ("Variance of the index of unobserved causes", "number"),
+}
+"""Fields inside a nested list or record: (label, how written)."""
+
+RECORD_FIELDS_BY_PARENT = {
+    ("estimates", "2sls"): ("2SLS with the arms as instruments", "number"),
+    ("estimates", "ols"): ("OLS of the outcome on the mediator", "number"),
+    ("estimates", "ols_with_treatment"): ("OLS with the arms held fixed", "number"),
+    ("theta", "max"): ("Largest", "number"),
+    ("theta", "median"): ("Median", "number"),
+    ("theta", "min"): ("Smallest", "number"),
+}
+"""Keys inside a record whose meaning depends on the field holding it: (field, key) to (label, how written)."""
+
+RECORD_VALUES = {
+    "criterion": {
+        "tsls_relative_bias": "Bias of 2SLS relative to OLS",
+        "tsls_size": "Size of the 2SLS Wald test",
+        "liml_size": "Size of the LIML Wald test",
+    },
+}
+"""Words for coded values inside nested records; an unlisted value shows as the engine wrote it."""
+
+INDEXED_BY = {"difference": "terms", "disturbance_covariance": "equations"}
+"""Fields whose values stand beside the names listed in another field: one row per name."""
+
+COEFFICIENT_ROW_RESTATES = frozenset({"estimator"})
+"""Fields of a coefficient row not shown: the fit they name is the table's caption."""
+
+WIDE_TABLE_COLUMNS = 4
+"""A table with more columns than this spans the row of diagnostic cards."""
+
+GRID_KEYS = ("r2dz_x", "r2yz_dx", "adjusted_estimate", "adjusted_t", "critical_t")
+"""What the omitted-cause grid holds (``contour_grid`` in app/estimation/sensitivity.py); the table shows each."""
+
+GRID_STEP = 5
+"""The omitted-cause grid is shown at every fifth point (and its last) of each axis: 6 by 6 of the 26 by 26."""
 
 
 @dataclass(frozen=True)
@@ -154,24 +292,55 @@ class DetailLine:
 
     label: str
     value: str
+    field: str
 
 
 @dataclass(frozen=True)
-class CoefficientTable:
-    """A table of coefficients that a diagnostic result carries (first stage, reduced form, selection equation)."""
+class DetailTable:
+    """A list or record a diagnostic result holds, as a small table; the first cell of a row names it.
 
+    ``field`` is the result's field it shows and ``keys`` the fields of its
+    records that stand in it, so that a test can tell what the page leaves out.
+    """
+
+    field: str
     caption: str
-    rows: list[dict[str, Any]]
+    columns: list[str]
+    rows: list[list[str]]
+    keys: tuple[str, ...] = ()
+    note: str = ""
+
+    @property
+    def wide(self) -> bool:
+        """Whether the table needs the page's full width rather than one card's."""
+        return len(self.columns) > WIDE_TABLE_COLUMNS
 
 
 @dataclass(frozen=True)
 class ResultDetails:
-    """A result's extra fields sorted by how they are shown: numbers, text, coefficient tables, confidence sets."""
+    """A result's extra fields sorted by how they are shown.
+
+    Numbers, text, lists of names or notes, confidence sets, coefficient tables
+    and the other nested lists and records as tables.
+    """
 
     numbers: list[DetailLine]
     text: list[DetailLine]
-    coefficients: list[CoefficientTable]
+    coefficients: list[DetailTable]
     sets: list[DetailLine]
+    lists: list[DetailLine]
+    tables: list[DetailTable]
+
+    @property
+    def wide(self) -> bool:
+        """Whether a table of the result needs the page's full width."""
+        return any(table.wide for table in [*self.coefficients, *self.tables])
+
+    def fields(self) -> set[str]:
+        """The result's fields that something shown comes from."""
+        parts = [*self.numbers, *self.text, *self.coefficients, *self.sets, *self.lists, *self.tables]
+        indexes = {INDEXED_BY[table.field] for table in self.tables if table.field in INDEXED_BY}
+        return {part.field for part in parts} | indexes
 
 
 def details(key: str, result: dict[str, Any]) -> ResultDetails:
@@ -179,32 +348,228 @@ def details(key: str, result: dict[str, Any]) -> ResultDetails:
 
     Labels come from :data:`~app.web.labels.DETAIL_FIELDS` (or, where a field
     means something particular to one diagnostic,
-    :data:`~app.web.labels.DETAIL_FIELDS_BY_DIAGNOSTIC`); a field not listed
-    there shows its own name in words.
+    :data:`~app.web.labels.DETAIL_FIELDS_BY_DIAGNOSTIC`) and, for lists and
+    records, :data:`NESTED_FIELDS`; a field not listed there shows its own name
+    in words. Every field that is not null is shown somewhere.
     """
-    shown = ResultDetails(numbers=[], text=[], coefficients=[], sets=[])
+    shown = ResultDetails(numbers=[], text=[], coefficients=[], sets=[], lists=[], tables=[])
+    index_fields = {INDEXED_BY[field] for field in result if field in INDEXED_BY}
     for field, value in result.items():
-        if field in RESULT_FIELDS or value is None:
+        if field in RESULT_FIELDS or field in index_fields or value is None:
             continue
         label, style = detail_label(key, field)
         if field == "confidence_set":
             level = formatting.as_number(result.get("confidence_level")) or CONFIDENCE_LEVEL
-            shown.sets.append(DetailLine(f"{_percent(level)} confidence set", formatting.confidence_set(value)))
+            shown.sets.append(DetailLine(f"{_percent(level)} confidence set", formatting.confidence_set(value), field))
         elif isinstance(value, bool):
-            shown.text.append(DetailLine(label, "yes" if value else "no"))
+            shown.text.append(DetailLine(label, _yes_no(value), field))
         elif isinstance(value, (int, float)):
-            shown.numbers.append(DetailLine(label, _written(value, style)))
+            shown.numbers.append(DetailLine(label, _written(value, style), field))
         elif isinstance(value, str):
-            shown.text.append(DetailLine(label, DETAIL_VALUES.get(field, {}).get(value, value)))
-        elif isinstance(value, list) and value and all(isinstance(row, dict) and "term" in row for row in value):
-            shown.coefficients.append(CoefficientTable(caption=label, rows=value))
+            shown.text.append(DetailLine(label, DETAIL_VALUES.get(field, {}).get(value, value), field))
+        elif not value:
+            shown.lists.append(DetailLine(label, "none", field))
+        elif field in INDEXED_BY:
+            shown.tables.append(_indexed_table(field, label, value, names=result.get(INDEXED_BY[field]) or []))
+        elif style == "grid" and isinstance(value, dict):
+            shown.tables.append(_grid_table(field, label, value, alpha=result.get("alpha")))
+        elif isinstance(value, dict):
+            shown.tables.append(_record_table(field, label, value))
+        elif all(isinstance(row, dict) and "term" in row for row in value):
+            shown.coefficients.append(_coefficient_table(field, label, value))
+        elif all(isinstance(row, dict) for row in value):
+            shown.tables.extend(_records_tables(field, label, value))
+        else:
+            shown.lists.append(DetailLine(label, _cell(value, style), field))
     return shown
 
 
 def detail_label(key: str, field: str) -> tuple[str, str]:
     """The label of ``field`` in a result of diagnostic ``key`` and how its value is written."""
-    found = DETAIL_FIELDS_BY_DIAGNOSTIC.get((key, field)) or DETAIL_FIELDS.get(field)
-    return found if found is not None else (field.replace("_", " ").capitalize(), "number")
+    found = (
+        DETAIL_FIELDS_BY_DIAGNOSTIC.get((key, field))
+        or NESTED_FIELDS_BY_DIAGNOSTIC.get((key, field))
+        or DETAIL_FIELDS.get(field)
+        or NESTED_FIELDS.get(field)
+    )
+    return found if found is not None else (_in_words(field), "number")
+
+
+def record_label(parent: str, key: str) -> tuple[str, str]:
+    """The label of ``key`` inside a list or record held in field ``parent``, and how its value is written."""
+    found = RECORD_FIELDS_BY_PARENT.get((parent, key)) or RECORD_FIELDS.get(key)
+    return found if found is not None else (_in_words(key), "number")
+
+
+def _coefficient_table(field: str, caption: str, rows: list[dict[str, Any]]) -> DetailTable:
+    """Coefficients with their interval and test statistic, written as ``t(2388) = 18.06``."""
+    level = _percent(CONFIDENCE_LEVEL)
+    return DetailTable(
+        field=field,
+        caption=caption,
+        columns=["Term", "Estimate", "Std. error", f"{level} interval", "Test statistic", "p-value"],
+        rows=[
+            [
+                str(row["term"]),
+                formatting.number(row.get("estimate")),
+                formatting.number(row.get("std_error")),
+                _coefficient_interval(row.get("ci_low"), row.get("ci_high")),
+                _statistic(row),
+                formatting.p_value_cell(row.get("p_value")),
+            ]
+            for row in rows
+        ],
+        keys=("term", "estimate", "std_error", "ci_low", "ci_high", "statistic", "distribution", "df", "p_value"),
+    )
+
+
+def _coefficient_interval(low: object, high: object) -> str:
+    """A coefficient's interval; ``n/a`` when an end is missing (a Wald interval is never unbounded)."""
+    if formatting.as_number(low) is None or formatting.as_number(high) is None:
+        return formatting.MISSING
+    return formatting.interval(low, high)
+
+
+def _statistic(row: dict[str, Any]) -> str:
+    if formatting.as_number(row.get("statistic")) is None:
+        return formatting.MISSING
+    return formatting.statistic(row["statistic"], distribution=row.get("distribution"), df=row.get("df"))
+
+
+def _records_tables(
+    field: str, caption: str, records: list[dict[str, Any]], *, parent: str | None = None
+) -> list[DetailTable]:
+    """A list of records as one table, a row each; a list of records inside a row becomes a table of its own.
+
+    The tables inside rows follow the main one, captioned with the row they
+    belong to (the Stock-Yogo values of each criterion, the intervals of each
+    focal regressor as the direct effect grows). ``field`` is the result's
+    field shown; ``parent`` the field holding the records, whose labels apply.
+    """
+    parent = parent or field
+    columns = _keys(records, nested=False)
+    nested = _keys(records, nested=True)
+    main = DetailTable(
+        field=field,
+        caption=caption,
+        columns=[record_label(parent, column)[0] for column in columns],
+        rows=[[_record_cell(parent, column, record.get(column)) for column in columns] for record in records],
+        keys=tuple(columns + nested),
+    )
+    tables = [main]
+    for record, row in zip(records, main.rows):
+        for inner in nested:
+            rows = record.get(inner)
+            if rows:
+                label = record_label(parent, inner)[0]
+                tables.extend(_records_tables(field, f"{label}: {row[0]}", rows, parent=inner))
+    return tables
+
+
+def _keys(records: list[dict[str, Any]], *, nested: bool) -> list[str]:
+    """Keys that are not null in some record, in order of first appearance: lists of records or the rest."""
+    keys: list[str] = []
+    for record in records:
+        for key, value in record.items():
+            holds_records = isinstance(value, list) and bool(value) and all(isinstance(item, dict) for item in value)
+            if value is not None and holds_records == nested and key not in keys:
+                keys.append(key)
+    return keys
+
+
+def _record_table(field: str, caption: str, record: dict[str, Any]) -> DetailTable:
+    """One record (a bootstrap test, θ across units, the mediator's estimates) as label and value rows."""
+    shown = [key for key, value in record.items() if value is not None]
+    return DetailTable(
+        field=field,
+        caption=caption,
+        columns=[],
+        rows=[[record_label(field, key)[0], _record_cell(field, key, record[key])] for key in shown],
+        keys=tuple(shown),
+    )
+
+
+def _indexed_table(field: str, caption: str, values: list[Any], *, names: list[Any]) -> DetailTable:
+    """Values beside the names they belong to: a vector one per row, a matrix with the names as headings too."""
+    matrix = all(isinstance(row, list) for row in values)
+    rows = [
+        [str(name), *([_cell(cell, "number") for cell in row] if matrix else [_cell(row, "number")])]
+        for name, row in zip(names, values)
+    ]
+    columns = ["", *map(str, names)] if matrix else []
+    return DetailTable(field=field, caption=caption, columns=columns, rows=rows, keys=(INDEXED_BY[field],))
+
+
+def _grid_table(field: str, caption: str, grid: dict[str, Any], *, alpha: object) -> DetailTable:
+    """The adjusted estimate (and its t) for omitted causes of given strengths, at every :data:`GRID_STEP`-th point.
+
+    ``adjusted_estimate[i][j]`` is at ``r2dz_x[i]`` (columns here) and
+    ``r2yz_dx[j]`` (rows); Cinelli & Hazlett (2020), sec. 4.1, draw the same
+    grid as contours.
+    """
+    focal, outcome = grid.get("r2dz_x") or [], grid.get("r2yz_dx") or []
+    estimates, t_values = grid.get("adjusted_estimate") or [], grid.get("adjusted_t") or []
+    across, down = _thinned(len(focal)), _thinned(len(outcome))
+    rows = [
+        [
+            formatting.number(outcome[j]),
+            *(f"{formatting.number(estimates[i][j])} (t {formatting.number(t_values[i][j])})" for i in across),
+        ]
+        for j in down
+    ]
+    share = formatting.as_number(alpha)
+    level = f" at the {_percent(share)} level" if share is not None else ""
+    note = (
+        "Rows: the omitted cause's partial R² with the outcome; columns: with the focal regressor. Each cell is the "
+        "estimate adjusted for such a cause, with its t statistic; the adjusted estimate stays significant"
+        f"{level} while |t| exceeds {formatting.number(grid.get('critical_t'))}."
+    )
+    heading = "R² with the outcome ↓, with the focal regressor →"
+    return DetailTable(
+        field=field,
+        caption=caption,
+        columns=[heading, *(formatting.number(focal[i]) for i in across)],
+        rows=rows,
+        keys=GRID_KEYS,
+        note=note,
+    )
+
+
+def _thinned(points: int) -> list[int]:
+    return sorted({*range(0, points, GRID_STEP), points - 1}) if points else []
+
+
+def _record_cell(parent: str, key: str, value: Any) -> str:
+    label, style = record_label(parent, key)
+    if isinstance(value, str):
+        return RECORD_VALUES.get(key, {}).get(value, value)
+    return _cell(value, style)
+
+
+def _cell(value: Any, style: str) -> str:
+    """A value in a table cell or a list line, written as the rest of the page writes it."""
+    if value is None:
+        return formatting.MISSING
+    if isinstance(value, bool):
+        return _yes_no(value)
+    if isinstance(value, (int, float)):
+        return _written(value, style)
+    if isinstance(value, list):
+        if style == "interval" and len(value) == 2:
+            return formatting.interval(value[0], value[1])
+        if style == "df":
+            return formatting.degrees_of_freedom(value)
+        separator = "; " if style == "text" else ", "
+        return separator.join(_cell(item, style) for item in value)
+    return str(value)
+
+
+def _yes_no(value: bool) -> str:
+    return "yes" if value else "no"
+
+
+def _in_words(field: str) -> str:
+    return field.replace("_", " ").capitalize()
 
 
 def _written(value: float, style: str) -> str:

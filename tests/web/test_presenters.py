@@ -76,15 +76,21 @@ def test_details_label_extra_fields_in_words_and_write_them_like_the_page() -> N
 
     line = presenters.DetailLine
     assert shown.numbers == [
-        line("Confidence level", "90%"),
-        line("Shea partial R²", "0.1523"),
-        line("Instruments", "3"),
-        line("Significance level", "5%"),
-        line("Random seed", "20240611"),
+        line("Confidence level", "90%", "confidence_level"),
+        line("Shea partial R²", "0.1523", "shea_partial_r2"),
+        line("Instruments", "3", "n_instruments"),
+        line("Significance level", "5%", "significance"),
+        line("Random seed", "20240611", "seed"),
     ]
-    assert shown.sets == [line("90% confidence set", "[-inf, 1.000]")]
-    assert shown.text == [line("Shape of the set", "unbounded"), line("Variance estimator", "Cluster-robust"), line("Robust", "yes")]
-    assert shown.coefficients == [presenters.CoefficientTable("Coefficients", [{"term": "z", "estimate": 0.4}])]
+    assert shown.sets == [line("90% confidence set", "[-inf, 1.000]", "confidence_set")]
+    assert shown.text == [
+        line("Shape of the set", "unbounded", "shape"),
+        line("Variance estimator", "Cluster-robust", "variance"),
+        line("Robust", "yes", "robust"),
+    ]
+    (table,) = shown.coefficients
+    assert (table.caption, table.rows) == ("Coefficients", [["z", "0.4000", "n/a", "n/a", "n/a", "n/a"]])
+    assert "missing" not in shown.fields()
 
 
 def test_a_field_that_means_something_particular_to_one_diagnostic_gets_its_own_label() -> None:
@@ -95,3 +101,89 @@ def test_a_field_that_means_something_particular_to_one_diagnostic_gets_its_own_
 
 def test_a_field_without_a_label_shows_its_name_in_words() -> None:
     assert presenters.detail_label("something_new", "new_ratio") == ("New ratio", "number")
+
+
+def test_coefficient_rows_show_interval_and_test_statistic() -> None:
+    row = {
+        "estimator": "first_stage:steps",
+        "term": "lottery",
+        "estimate": 1.3389,
+        "std_error": 0.07414,
+        "statistic": 18.0589,
+        "p_value": 2e-68,
+        "ci_low": 1.19352,
+        "ci_high": 1.4843,
+        "df": 2388,
+        "distribution": "t",
+    }
+    (table,) = presenters.details("first_stage", {"coefficients": [row]}).coefficients
+    assert table.columns == ["Term", "Estimate", "Std. error", "95% interval", "Test statistic", "p-value"]
+    assert table.rows == [["lottery", "1.339", "0.07414", "[1.194, 1.484]", "t(2388) = 18.06", "< 0.0001"]]
+
+
+def test_a_list_of_records_is_a_table_and_records_inside_a_row_get_a_table_each() -> None:
+    criteria = [
+        {"criterion": "tsls_relative_bias", "meaning": "bias of 2SLS", "tabulated": False, "reason": "not tabulated"},
+        {
+            "criterion": "tsls_size",
+            "meaning": "size of the 2SLS test",
+            "tabulated": True,
+            "critical_values": [{"threshold": 0.1, "critical_value": 19.93, "exceeds": True}],
+        },
+    ]
+    main, inner = presenters.details("stock_yogo", {"criteria": criteria}).tables
+
+    assert main.caption == "Critical values, criterion by criterion"
+    assert main.columns == ["Criterion", "What it limits", "Tabulated", "Why"]
+    assert main.rows == [
+        ["Bias of 2SLS relative to OLS", "bias of 2SLS", "no", "not tabulated"],
+        ["Size of the 2SLS Wald test", "size of the 2SLS test", "yes", "n/a"],
+    ]
+    assert inner.caption == "Critical values: Size of the 2SLS Wald test"
+    assert (inner.columns, inner.rows) == (
+        ["Largest value tolerated", "Critical value", "Statistic above it"],
+        [["10%", "19.93", "yes"]],
+    )
+    assert main.field == inner.field == "criteria"
+
+
+def test_a_record_is_a_table_of_labels_and_values() -> None:
+    wald = {"statistic": -2.29235, "p_value": 0.0589059, "null_hypothesis": "no effect", "method": "restricted"}
+    (table,) = presenters.details("wild_cluster_bootstrap", {"wald": wald}).tables
+    assert table.caption == "Bootstrap t-test of the 2SLS coefficient" and table.columns == []
+    assert table.rows == [["Statistic", "-2.292"], ["p-value", "0.059"], ["Null hypothesis", "no effect"], ["Method", "restricted"]]
+
+
+def test_values_indexed_by_names_stand_beside_them() -> None:
+    shown = presenters.details(
+        "disturbance_correlation", {"equations": ["structural", "first stage"], "disturbance_covariance": [[4.0, 0.5], [0.5, 1.0]]}
+    )
+    (table,) = shown.tables
+    assert table.columns == ["", "structural", "first stage"]
+    assert table.rows == [["structural", "4.000", "0.5000"], ["first stage", "0.5000", "1.000"]]
+    assert shown.fields() == {"equations", "disturbance_covariance"} and shown.lists == []
+
+
+def test_the_omitted_cause_grid_is_thinned_to_every_fifth_point_and_its_last() -> None:
+    axis = [i / 100 for i in range(11)]
+    grid = {
+        "r2dz_x": axis,
+        "r2yz_dx": axis,
+        "adjusted_estimate": [[10 * i + j for j in range(11)] for i in range(11)],
+        "adjusted_t": [[-(10 * i + j) for j in range(11)] for i in range(11)],
+        "critical_t": 1.96,
+    }
+    (table,) = presenters.details("omitted_cause_sensitivity", {"contour": grid, "alpha": 0.05}).tables
+    assert table.columns[1:] == ["0", "0.05000", "0.1000"]
+    assert [row[0] for row in table.rows] == ["0", "0.05000", "0.1000"]
+    assert table.rows[1][2] == "55.00 (t -55.00)"  # adjusted_estimate[i=5][j=5]
+    assert table.rows[2][1] == "10.00 (t -10.00)"  # r2dz_x = 0 (i=0), r2yz_dx = 0.1 (j=10)
+    assert "5% level while |t| exceeds 1.960" in table.note
+
+
+def test_empty_lists_say_none_and_names_are_listed() -> None:
+    shown = presenters.details("proportional_selection", {"warnings": [], "identified_set": [-0.2, 0.1]})
+    assert shown.lists == [
+        presenters.DetailLine("Warnings", "none", "warnings"),
+        presenters.DetailLine("Identified set (from the controlled to the bias-adjusted estimate)", "[-0.2000, 0.1000]", "identified_set"),
+    ]
