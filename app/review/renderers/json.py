@@ -1,4 +1,4 @@
-"""JSON report: the findings with the keys ``checklist`` and ``verdict`` added."""
+"""JSON report: the findings with the keys ``checklist``, ``verdict`` and ``caution`` added."""
 
 from __future__ import annotations
 
@@ -8,15 +8,18 @@ from collections.abc import Mapping
 from typing import Any
 
 from app.review.checklist import Checklist
+from app.review.renderers.common import CAUTION
 
 
 def render_json(findings: Mapping[str, Any], checklist: Checklist, *, data_file_name: str) -> str:
-    """Findings plus checklist and verdict, as strict JSON (no NaN or Infinity).
+    """Findings plus checklist, verdict and the report's cautions, as strict JSON (no NaN or Infinity).
 
+    ``caution`` holds the sentences every report ends with: a flag is not
+    proof of error or misconduct, and the data are confidential.
     ``data_file_name`` is already in the findings' provenance; it is accepted
     for the common renderer signature.
     """
-    document = {**findings, **checklist.to_dict()}
+    document = {**findings, **checklist.to_dict(), "caution": list(CAUTION)}
     return json.dumps(_strict(document), indent=2, ensure_ascii=False, allow_nan=False) + "\n"
 
 

@@ -25,10 +25,12 @@ two-way clustering, which linearmodels' GMM weight does not support.
 
 from __future__ import annotations
 
+import textwrap
 from collections.abc import Mapping
 from typing import Any
 
 from app.review.checklist import Checklist
+from app.review.renderers.common import CAUTION
 from app.review.view import FindingsView
 
 INTERCEPT = "(intercept)"
@@ -53,6 +55,8 @@ Usage: python <this file> [DATA_FILE]    (default: the original file name below)
 Needs pandas, numpy and linearmodels. The steps mirror how SecondStage built the
 estimation sample; the script prints the key numbers as "key = value" lines
 that can be compared with the review.
+
+{caution}
 
 The replication data are confidential: run this where the data may be kept and
 do not send the data outside the editorial process.
@@ -167,6 +171,7 @@ def render_script(findings: Mapping[str, Any], checklist: Checklist, *, data_fil
     view = FindingsView(findings)
     parts = [
         HEADER.format(
+            caution=textwrap.fill(CAUTION[0], width=80),
             title=repr(view.title),
             data_file=repr(data_file_name),
             panel_import="from linearmodels.panel import RandomEffects\n" if view.design == "panel" else "",
