@@ -8,6 +8,7 @@ must come out as text.
 
 from __future__ import annotations
 
+import html
 import json
 import re
 import xml.etree.ElementTree as ET
@@ -18,7 +19,7 @@ from markdown_it import MarkdownIt
 from app.review.checklist import Judgement, build_checklist
 from app.review.renderers.common import CAUTION
 from app.review.reports import REPORT_FORMATS
-from tests.review.findings_builder import iv_findings, result, with_claim, with_diagnostic
+from tests.review.findings_builder import iv_findings, result, row, with_claim, with_covariance, with_diagnostic, with_rows
 
 HOSTILE_TITLE = "Sales <script>alert('x')</script> | & more *bold* `code` [link](http://example.org)"
 
@@ -156,3 +157,35 @@ def test_the_refit_warnings_reach_every_report():
     findings["warnings"] = ["'tenure_years' is nearly collinear with (intercept)"]
     for name in ("text", "markdown", "html"):
         assert "nearly collinear" in render(name, findings)
+
+
+def heckman_findings(covariance: str, clusters: dict[str, int] | None = None) -> dict:
+    """A selected-sample claim whose table holds Heckman's row (corrected covariance, never clustered)."""
+    findings = with_covariance(
+        with_claim(iv_findings(), design="selection", instruments=[], selected="employed", claimed={"estimator": "ols"}),
+        covariance,
+        clusters=clusters,
+    )
+    findings["estimators"] += [{"code": "heckman_two_step", "name": "Heckman two-step"}]
+    return with_rows(findings, row("heckman_two_step", 0.5, 0.05))
+
+
+@pytest.mark.parametrize("name", ["text", "markdown", "html", "json"])
+def test_the_heckman_row_is_footnoted_with_its_own_covariance(name):
+    flat = html.unescape(" ".join(render(name, heckman_findings("robust")).split()).replace("\\", ""))
+    assert "Heckman two-step*" in flat or name == "json"
+    assert "Heckman two-step: standard errors from Heckman's (1979) corrected covariance" in flat or name == "json"
+    assert "corrected covariance, which assumes homoskedastic normal errors" in flat
+    assert "not from the heteroskedasticity-robust (HC1) estimator of the other rows" in flat
+
+
+@pytest.mark.parametrize("name", ["text", "markdown", "html", "json"])
+def test_a_clustered_claim_is_told_the_heckman_errors_are_not_clustered(name):
+    flat = " ".join(render(name, heckman_findings("cluster", {"region": 30})).split()).replace("\\", "")
+    assert "the claim clusters its standard errors, but these are not clustered" in flat
+
+
+def test_rows_using_the_claims_covariance_carry_no_note():
+    text = render("text", iv_findings())
+    assert "*" not in text.split("KEY DIAGNOSTICS")[0]
+    assert json.loads(render("json", iv_findings()))["estimate_notes"] == {}

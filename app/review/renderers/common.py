@@ -25,6 +25,9 @@ CAUTION = (
 
 PRODUCT = "SecondStage"
 
+NOTE_MARK = "*"
+"""Marks an estimator whose standard errors do not come from the variance estimator the table heading names."""
+
 
 @dataclass(frozen=True)
 class EstimateLine:
@@ -39,6 +42,12 @@ class EstimateLine:
     ci_high: float | None
     p_value: float | None
     claimed: bool
+    note: str | None = None
+
+    @property
+    def label(self) -> str:
+        """The estimator's name, with :data:`NOTE_MARK` when a note below the table explains its standard errors."""
+        return f"{self.name}{NOTE_MARK}" if self.note else self.name
 
 
 def estimate_lines_by_term(view: FindingsView) -> dict[str, list[EstimateLine]]:
@@ -58,9 +67,39 @@ def estimate_lines_by_term(view: FindingsView) -> dict[str, list[EstimateLine]]:
                     ci_high=as_number(row.get("ci_high")),
                     p_value=as_number(row.get("p_value")),
                     claimed=code == view.claimed_estimator and term == view.focal_term,
+                    note=covariance_note(view, code),
                 )
             )
     return by_term
+
+
+def covariance_note(view: FindingsView, code: str) -> str | None:
+    """Why an estimator's standard errors differ from the claim's variance estimator, or None when they do not.
+
+    Heckman's two-step rows use his corrected covariance (Heckman 1979;
+    Greene 2003, sec. 22.4), which is neither robust nor clustered; the
+    control function's two-step sandwich (Newey 1984) is robust even when the
+    claim states classical standard errors.
+    """
+    if code == "heckman_two_step":
+        note = (
+            "standard errors from Heckman's (1979) corrected covariance, which assumes homoskedastic normal errors "
+            f"(normal reference distribution), not from the {view.variance_label} estimator of the other rows"
+        )
+        if view.variance_kind == "cluster":
+            note += "; the claim clusters its standard errors, but these are not clustered"
+        return note + "."
+    if code == "control_function" and view.variance_kind == "homoskedastic":
+        return (
+            "standard errors from the two-step corrected sandwich (Newey 1984), heteroskedasticity-robust with the "
+            "HC1 factor, not classical."
+        )
+    return None
+
+
+def estimate_notes(lines: list[EstimateLine]) -> list[str]:
+    """The notes below a table of estimates, one per marked estimator."""
+    return [f"{NOTE_MARK} {line.name}: {line.note}" for line in lines if line.note]
 
 
 def sample_lines(view: FindingsView) -> list[str]:

@@ -20,6 +20,7 @@ from app.review.renderers.common import (
     awaiting_judgement,
     claimed_sentence,
     estimate_lines_by_term,
+    estimate_notes,
     interval_text,
     key_diagnostics,
     model_lines,
@@ -113,7 +114,7 @@ def _estimates(view: FindingsView) -> list[str]:
             tag(
                 "tr",
                 [
-                    tag("td", text(f"{line.name} (claimed)" if line.claimed else line.name)),
+                    tag("td", text(f"{line.label} (claimed)" if line.claimed else line.label)),
                     tag("td", text(number(line.estimate)), class_="num"),
                     tag("td", text(number(line.std_error)), class_="num"),
                     tag("td", text(interval_text(line))),
@@ -127,6 +128,7 @@ def _estimates(view: FindingsView) -> list[str]:
             tag("h2", text(f"Estimates of the effect of {term}")),
             tag("p", text(f"Standard errors: {view.variance_label}."), class_="meta"),
             tag("table", [tag("thead", header), tag("tbody", rows)]),
+            *(tag("p", text(note), class_="meta") for note in estimate_notes(lines)),
         ]
     return out
 

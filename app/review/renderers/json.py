@@ -1,4 +1,4 @@
-"""JSON report: the findings with the keys ``checklist``, ``verdict`` and ``caution`` added."""
+"""JSON report: the findings with the keys ``checklist``, ``verdict``, ``estimate_notes`` and ``caution`` added."""
 
 from __future__ import annotations
 
@@ -8,7 +8,8 @@ from collections.abc import Mapping
 from typing import Any
 
 from app.review.checklist import Checklist
-from app.review.renderers.common import CAUTION
+from app.review.renderers.common import CAUTION, estimate_lines_by_term
+from app.review.view import FindingsView
 
 
 def render_json(findings: Mapping[str, Any], checklist: Checklist, *, data_file_name: str) -> str:
@@ -16,10 +17,16 @@ def render_json(findings: Mapping[str, Any], checklist: Checklist, *, data_file_
 
     ``caution`` holds the sentences every report ends with: a flag is not
     proof of error or misconduct, and the data are confidential.
+    ``estimate_notes`` maps an estimator code to the note the other reports
+    print under the table when its standard errors do not come from the
+    claim's variance estimator (e.g. Heckman's corrected covariance).
     ``data_file_name`` is already in the findings' provenance; it is accepted
     for the common renderer signature.
     """
-    document = {**findings, **checklist.to_dict(), "caution": list(CAUTION)}
+    notes = {
+        line.code: line.note for lines in estimate_lines_by_term(FindingsView(findings)).values() for line in lines if line.note
+    }
+    document = {**findings, **checklist.to_dict(), "estimate_notes": notes, "caution": list(CAUTION)}
     return json.dumps(_strict(document), indent=2, ensure_ascii=False, allow_nan=False) + "\n"
 
 

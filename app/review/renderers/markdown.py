@@ -21,6 +21,7 @@ from app.review.renderers.common import (
     awaiting_judgement,
     claimed_sentence,
     estimate_lines_by_term,
+    estimate_notes,
     interval_text,
     key_diagnostics,
     model_lines,
@@ -112,12 +113,13 @@ def _estimates_table(view: FindingsView) -> list[str]:
             "| --- | ---: | ---: | --- | ---: |",
         ]
         for line in lines:
-            name = f"{line.name} (claimed)" if line.claimed else line.name
+            name = f"{line.label} (claimed)" if line.claimed else line.label
             out.append(
                 f"| {cell(name)} | {cell(number(line.estimate))} | {cell(number(line.std_error))} | "
                 f"{cell(interval_text(line))} | {cell(p_value_cell(line.p_value))} |"
             )
         out.append("")
+        out += [item for note in estimate_notes(lines) for item in (inline(note), "")]
     return out
 
 

@@ -20,6 +20,7 @@ from app.review.renderers.common import (
     PRODUCT,
     claimed_sentence,
     estimate_lines_by_term,
+    estimate_notes,
     interval_text,
     key_diagnostics,
     model_lines,
@@ -82,17 +83,19 @@ def _estimates(view: FindingsView) -> list[str]:
     for term, lines in estimate_lines_by_term(view).items():
         out += heading(f"Effect of {term} on {view.outcome}")
         out.append(f"  standard errors: {view.variance_label}")
-        width = min(max(len("estimator"), *(len(line.name) for line in lines)), NAME_WIDTH) + 2
+        width = min(max(len("estimator"), *(len(line.label) for line in lines)), NAME_WIDTH) + 2
         header = f"  {'':2}{'estimator':<{width}}{'estimate':>11}{'std. error':>12}   {'95% interval':<26}{'p-value':>10}"
         out += ["", header, "  " + "-" * (len(header) - 2)]
         for line in lines:
             marker = "->" if line.claimed else ""
             out.append(
-                f"  {marker:2}{_fit(line.name, width - 2):<{width}}{number(line.estimate):>11}{number(line.std_error):>12}   "
+                f"  {marker:2}{_fit(line.label, width - 2):<{width}}{number(line.estimate):>11}{number(line.std_error):>12}   "
                 f"{interval_text(line):<26}{p_value_cell(line.p_value):>10}"
             )
         if any(line.claimed for line in lines):
             out.append("  (-> the estimator the claim reports)")
+        for note in estimate_notes(lines):
+            out += wrap(note, indent="  ", hanging="    ")
     return out
 
 
