@@ -1,4 +1,8 @@
-"""Two refits of one case side by side: what changed (data, claim, packages, estimates, verdict) and why."""
+"""Two refits of one case side by side: what changed (data, claim, packages, estimates, verdict) and why.
+
+The "why" is what people recorded: each claim version's change note (for
+example the authors' reply that led to it) comes with the comparison.
+"""
 
 from __future__ import annotations
 
@@ -34,6 +38,8 @@ def compare_refits(ctx: ServiceContext, *, case_id: int, before_id: int, after_i
             rows_before=old.get("n_obs") if old else None,
             rows_after=new.get("n_obs") if new else None,
             claim_changes=claim_changes,
+            change_note_before=before.claim.change_note,
+            change_note_after=after.claim.change_note,
             package_changes=package_changes,
             estimates=estimates,
             verdict_before=old_checklist.verdict.to_dict() if old_checklist else None,
@@ -59,11 +65,17 @@ def explain(comparison: Comparison) -> list[str]:
     else:
         lines.append(f"Both refits read the same data file ({after.data_file_name}, identical bytes).")
     if comparison.claim_changes:
-        fields = ", ".join(change.field for change in comparison.claim_changes)
+        count = len(comparison.claim_changes)
         lines.append(
             f"The claim changed from claim {before.claim_number} version {before.claim_version} to claim "
-            f"{after.claim_number} version {after.claim_version} in: {fields}."
+            f"{after.claim_number} version {after.claim_version} in {count} field{'' if count == 1 else 's'}, "
+            "listed below."
         )
+        if comparison.change_note_after:
+            lines.append(
+                f"Recorded with claim {after.claim_number} version {after.claim_version}: "
+                f"“{comparison.change_note_after}”."
+            )
     else:
         lines.append("Both refits computed the same claim.")
     if comparison.package_changes:

@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass
+from typing import Any
 
 from pydantic import ValidationError
 
@@ -69,17 +71,36 @@ class ClaimRejected(InvalidInput, SpecError):
     """A claim failed validation (its spec, or its columns against the dataset)."""
 
 
+WORDS_BY_ERROR_TYPE = {
+    "missing": "this is required",
+    "int_parsing": "should be a whole number",
+    "int_type": "should be a whole number",
+    "int_from_float": "should be a whole number",
+    "float_parsing": "should be a number",
+    "float_type": "should be a number",
+    "bool_parsing": "should be yes or no",
+}
+"""Plain words for pydantic's error types whose own message is written for programmers."""
+
+
+def pydantic_detail(item: Mapping[str, Any]) -> str:
+    """What is wrong with one field, in plain words, without the field's name or pydantic's prefixes."""
+    words = WORDS_BY_ERROR_TYPE.get(str(item.get("type")))
+    if words is not None:
+        return words
+    message = str(item.get("msg", "invalid value")).removeprefix("Value error, ")
+    return message.replace("Input should", "should", 1)
+
+
 def problems_from(error: ValidationError) -> list[Problem]:
-    """One :class:`Problem` per pydantic error, naming the field and without pydantic's prefixes."""
+    """One :class:`Problem` per pydantic error: ``field: what is wrong`` (pages replace the path with a label)."""
     problems = []
     for item in error.errors():
         field = ".".join(str(part) for part in item["loc"]) or None
         if item["type"] == "extra_forbidden":
             message = f"unknown field '{field}'"
-        elif item["type"] == "missing":
-            message = f"'{field}' is required"
         else:
-            message = item["msg"].removeprefix("Value error, ")
-            message = f"{field}: {message}" if field else message
+            detail = pydantic_detail(item)
+            message = f"{field}: {detail}" if field else detail
         problems.append(Problem(field=field, message=message))
     return problems

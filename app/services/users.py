@@ -56,17 +56,22 @@ def checked_new_account(*, name: str, full_name: str, password: str, role: str |
     The name, the role (when one is chosen) and the password are checked
     against their rules, and the full name against its length.
     """
+    problems = new_account_problems(name=name, full_name=full_name, password=password, role=role)
+    if problems:
+        raise InvalidInput(problems)
+    return normalise_name(name), full_name.strip()
+
+
+def new_account_problems(*, name: str, full_name: str, password: str, role: str | None = None) -> list[Problem]:
+    """Every problem with a new account's fields at once (see :func:`checked_new_account`)."""
     name = normalise_name(name)
-    full_name = full_name.strip()
     problems = name_problems(name)
     if role is not None:
         problems += _role_problems(role)
     problems += password_field_problems(password, name=name)
-    if len(full_name) > MAX_FULL_NAME:
-        problems.append(Problem(field="full_name", message=f"full name: at most {MAX_FULL_NAME} characters"))
-    if problems:
-        raise InvalidInput(problems)
-    return name, full_name
+    if len(full_name.strip()) > MAX_FULL_NAME:
+        problems.append(Problem(field="full_name", message=f"full_name: at most {MAX_FULL_NAME} characters"))
+    return problems
 
 
 def user_info(session: Session, user: User) -> UserInfo:
@@ -99,11 +104,18 @@ def user_info(session: Session, user: User) -> UserInfo:
 def add_user(ctx: ServiceContext, *, name: str, role: str, password: str, full_name: str = "") -> UserInfo:
     """Create an account."""
     require_on_server(ctx.actor, ServerAction.MANAGE_ACCOUNTS)
-    name, full_name = checked_new_account(name=name, full_name=full_name, password=password, role=role)
+    problems = new_account_problems(name=name, full_name=full_name, password=password, role=role)
+    name, full_name = normalise_name(name), full_name.strip()
+    with ctx.reading() as session:
+        taken = session.scalar(select(User.id).where(User.name == name)) is not None
+    if taken:
+        problems.insert(0, _name_taken(name))
+    if problems:
+        raise InvalidInput(problems)
     password_hash = ctx.hasher.hash(password)
     with ctx.transaction() as session:
         if session.scalar(select(User.id).where(User.name == name)) is not None:
-            raise InvalidInput([Problem(field="name", message=f"name: there is already an account named '{name}'")])
+            raise InvalidInput([_name_taken(name)])
         user = User(name=name, full_name=full_name, role=role, password_hash=password_hash)
         session.add(user)
         session.flush()
@@ -227,6 +239,10 @@ def _load(session: Session, user_id: int) -> User:
     if user is None:
         raise NotFound(f"there is no account {user_id}")
     return user
+
+
+def _name_taken(name: str) -> Problem:
+    return Problem(field="name", message=f"name: there is already an account named '{name}'")
 
 
 def _role_problems(role: str) -> list[Problem]:

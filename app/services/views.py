@@ -337,6 +337,10 @@ class Comparison(View):
     rows_before: int | None
     rows_after: int | None
     claim_changes: list[FieldChange]
+    change_note_before: str
+    """Why the earlier refit's claim version was made, as recorded with it (empty for a first version)."""
+    change_note_after: str
+    """Why the later refit's claim version was made, as recorded with it (empty for a first version)."""
     package_changes: list[FieldChange]
     estimates: list[EstimateChange]
     verdict_before: dict[str, Any] | None

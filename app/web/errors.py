@@ -37,6 +37,7 @@ from app.services.errors import (
     Problem,
     SignInRefused,
     TooManyAttempts,
+    pydantic_detail,
 )
 from app.web.identity import FormTokenRefused, SignInRequired, sign_in_location
 
@@ -148,8 +149,8 @@ def _request_problem(item: dict[str, object]) -> Problem:
         return Problem(field=None, message="the request body is not valid JSON")
     location = [str(part) for part in item.get("loc", ()) if part not in ("body", "query", "path")]
     name = ".".join(location) or None
-    message = str(item.get("msg", "invalid value")).removeprefix("Value error, ")
-    return Problem(field=name, message=f"{name}: {message}" if name else message)
+    detail = pydantic_detail(item)
+    return Problem(field=name, message=f"{name}: {detail}" if name else detail)
 
 
 def install_error_handlers(app: FastAPI) -> None:

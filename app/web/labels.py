@@ -6,6 +6,10 @@ claim spec and the review package.
 
 from __future__ import annotations
 
+from collections.abc import Iterable
+
+from app.services.errors import Problem
+
 REFIT_STATES = {
     "waiting": "Queued",
     "running": "Computing",
@@ -337,3 +341,114 @@ DETAIL_VALUES = {
     "shown": {"generalized": "generalized (uses the estimated bias bound)", "simplified": "simplified (conservative)"},
 }
 """Words for the coded values of some text fields; an unlisted value shows as the engine wrote it."""
+
+CLAIM_FIELDS = {
+    "title": ("Title", "title"),
+    "design": ("Study design", "design"),
+    "outcome": ("Outcome", "roles"),
+    "endogenous": ("Focal regressors", "roles"),
+    "instruments": ("Instruments", "roles"),
+    "controls": ("Controls", "roles"),
+    "categorical": ("Categorical controls", "roles"),
+    "treatment": ("Randomized treatment", "roles"),
+    "mediator": ("Mediator", "roles"),
+    "weights": ("Weights", "roles"),
+    "unit": ("Unit identifier", "roles"),
+    "time": ("Time identifier", "roles"),
+    "selected": ("Selection indicator", "roles"),
+    "fixed_effects": ("Absorbed as fixed effects", "roles"),
+    "cluster": ("Clusters for standard errors", "roles"),
+    "benchmarks": ("Benchmarks for sensitivity", "roles"),
+    "pre_treatment": ("Pre-treatment covariates", "roles"),
+    "selection_covariates": ("In the selection equation", "roles"),
+    "covariance": ("Standard errors", "covariance"),
+    "intercept": ("Intercept", "intercept"),
+    "filters": ("Row filters", "filters"),
+    "claimed": ("The manuscript's numbers", "claimed-estimate"),
+    "claimed.estimator": ("Estimator it reports", "claimed-estimator"),
+    "claimed.term": ("Coefficient of", "claimed-term"),
+    "claimed.estimate": ("Estimate", "claimed-estimate"),
+    "claimed.std_error": ("Standard error", "claimed-std_error"),
+    "claimed.n_obs": ("Observations", "claimed-n_obs"),
+    "claimed.first_stage_f": ("First-stage F", "claimed-first_stage_f"),
+    "references": ("Reference levels of categorical controls", "references"),
+    "instrument_subsets": ("Instrument subsets to refit with", "instrument_subsets"),
+    "direct_effect_bound": ("Bound on an instrument's direct effect", "direct_effect_bound"),
+    "bootstrap.replications": ("Bootstrap replications", "bootstrap-replications"),
+    "bootstrap.seed": ("Bootstrap seed", "bootstrap-seed"),
+    "sensitivity.q": ("Sensitivity: share of the estimate (q)", "sensitivity-q"),
+    "sensitivity.alpha": ("Sensitivity: significance level", "sensitivity-alpha"),
+    "sensitivity.delta": ("Proportional selection: delta", "sensitivity-delta"),
+    "sensitivity.r2_max_factor": ("R² max as a multiple of R²", "sensitivity-r2_max_factor"),
+    "sensitivity.r2_max": ("R² max (overrides the multiple)", "sensitivity-r2_max"),
+    "sensitivity.multipliers": ("Benchmark multiples", "sensitivity-multipliers"),
+    "change_note": ("What changed, and why", "change_note"),
+}
+"""Claim spec fields (dotted paths, as in problems and comparisons): the claim form's label and the id of its control.
+
+Fields set by role in the variables table point at that table (``roles``).
+"""
+
+ACCOUNT_FIELDS = {
+    "name": ("Name to sign in with", "name"),
+    "full_name": ("Full name", "full_name"),
+    "role": ("Role", "role"),
+    "password": ("Password", "password"),
+    "repeat": ("The same password again", "repeat"),
+}
+"""Fields of the first-run and people forms: label and control id."""
+
+CLAIM_VALUE_WORDS = {"design": DESIGNS, "covariance": COVARIANCES, "claimed.estimator": ESTIMATORS}
+"""Claim fields whose coded values have words of their own."""
+
+
+def claim_field(field: str) -> str:
+    """A claim field's label on the claim form (the dotted path itself when the form has none)."""
+    return CLAIM_FIELDS.get(field, (field, ""))[0]
+
+
+def claim_value(field: str, value: object) -> str:
+    """A claim field's value in plain words: codes named, filters and reference levels written out, lists joined."""
+    if value is None:
+        return "not set"
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    if isinstance(value, list):
+        separator = ", " if all(isinstance(item, str) for item in value) else "; "
+        return separator.join(_claim_list_item(item) for item in value) if value else "none"
+    return CLAIM_VALUE_WORDS.get(field, {}).get(str(value), str(value))
+
+
+def _claim_list_item(item: object) -> str:
+    if isinstance(item, dict) and {"column", "op", "value"} <= item.keys():
+        return f"{item['column']} {item['op']} {_claim_list_item(item['value'])}"
+    if isinstance(item, dict) and "column" in item:
+        reference = item.get("reference")
+        return str(item["column"]) + ("" if reference is None else f" (reference level {reference})")
+    if isinstance(item, list):
+        return ", ".join(str(part) for part in item)
+    return str(item)
+
+
+def problem_field(field: str | None) -> tuple[str, str] | None:
+    """The label and control id of a problem's field, from the claim form or the account forms."""
+    if field is None:
+        return None
+    return CLAIM_FIELDS.get(field) or ACCOUNT_FIELDS.get(field)
+
+
+def problem_text(field: str | None, message: str) -> str:
+    """A problem as a page shows it: the field's label in place of its path (``Observations: ...``)."""
+    found = problem_field(field)
+    if found is None or field is None:
+        return message
+    return f"{found[0]}: {message.removeprefix(f'{field}: ')}"
+
+
+def problems_at(problems: Iterable[Problem], control: str) -> list[str]:
+    """The problems (as pages show them) that belong to one form control."""
+    return [
+        problem_text(problem.field, problem.message)
+        for problem in problems
+        if (found := problem_field(problem.field)) is not None and found[1] == control
+    ]

@@ -165,7 +165,8 @@ def first_run_form(
     check_pre_session_token(request, csrf_token)
     values = {"name": name, "full_name": full_name}
     if password != repeat:
-        problems = [Problem(field="repeat", message="the two passwords differ; type the same password twice")]
+        problems = users.new_account_problems(name=name, full_name=full_name, password=password)
+        problems.append(Problem(field="repeat", message="the two passwords differ; type the same password twice"))
         return _first_run_form(request, key=key, values=values, problems=problems, status_code=422)
     with first_run.lock:
         _check_first_run_key(request, key)

@@ -364,7 +364,7 @@ BAD_REQUESTS: dict[str, BadRequest] = {
     "an unknown field": BadRequest("POST", "/api/v1/cases", 422, "extra", {"json": {"title": "x", "owner": "root"}}),
     "an id beyond 64 bits": BadRequest("GET", "/api/v1/cases/99999999999999999999", 422, "less than or equal"),
     "a negative id": BadRequest("GET", "/cases/-1", 422, "greater than or equal"),
-    "an id that is not a number": BadRequest("GET", "/api/v1/cases/1%20OR%201=1", 422, "integer"),
+    "an id that is not a number": BadRequest("GET", "/api/v1/cases/1%20OR%201=1", 422, "case_id: should be a whole number"),
     "a report format that does not exist": BadRequest("GET", "/api/v1{refit}/reports/exe", 404, "no report format"),
     "a figure path that climbs out": BadRequest("GET", "{refit}/figures/..%2F..%2Fsecret.svg", 404, "not found"),
     "a sort key with sql in it": BadRequest("GET", "/api/v1/cases?sort=title;DROP TABLE cases", 422, "sort"),
