@@ -97,10 +97,18 @@ def _estimate_sentence(view: FindingsView) -> str | None:
     row = view.row(view.claimed_estimator)
     if row is None or row.get("estimate") is None:
         return None
-    return (
+    sentence = (
         f"Refitted estimate of {view.focal_term} ({view.estimator_name(view.claimed_estimator)}, as claimed): "
         f"{number(row.get('estimate'))}, 95% interval {interval(row.get('ci_low'), row.get('ci_high'))} "
         f"with {view.variance_label} standard errors."
+    )
+    corrected = view.corrected_estimator
+    corrected_row = view.row(corrected)
+    if corrected is None or corrected == view.claimed_estimator or corrected_row is None:
+        return sentence
+    return (
+        f"{sentence} Corrected estimate ({view.estimator_name(corrected)}): {number(corrected_row.get('estimate'))}, "
+        f"95% interval {interval(corrected_row.get('ci_low'), corrected_row.get('ci_high'))}."
     )
 
 

@@ -168,6 +168,13 @@ class FindingsView:
         return str(rows[0].get("estimator")) if rows else next(iter(defaults), None)
 
     @property
+    def corrected_estimator(self) -> str | None:
+        """The design's estimator that allows for the endogeneity it is about (2SLS, within, Heckman...), if fitted."""
+        defaults = () if self.design == "iv" and not self.has_instruments else DEFAULT_ESTIMATORS_BY_DESIGN.get(self.design, ())
+        fitted = [code for code in defaults if code not in NAIVE_ESTIMATORS and self.row(code) is not None]
+        return fitted[0] if fitted else None
+
+    @property
     def claim_uses_instruments(self) -> bool:
         """True when the claimed estimator uses only the variation the instruments predict."""
         return self.claimed_estimator in INSTRUMENTED_ESTIMATORS

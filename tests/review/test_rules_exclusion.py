@@ -51,7 +51,17 @@ def test_without_a_bound_the_reviewer_judges_the_break_even_value(item):
     findings = with_diagnostic(iv_findings(), "plausibly_exogenous", plausibly_exogenous(0.12))
     found = item(findings, DIRECT)
     assert found.standing == "reviewer_judgement"
-    assert "0.1200" in found.evidence and "40% of the instruments' reduced-form effect" in found.evidence
+    assert "0.1200" in found.evidence
+    assert "proportional to each instrument's own reduced-form coefficient make the claimed effect" in found.evidence
+    assert "at 40% of that coefficient" in found.evidence
+
+
+def test_the_common_break_even_value_is_set_against_each_reduced_form_coefficient(item):
+    findings = with_diagnostic(iv_findings(), "plausibly_exogenous", plausibly_exogenous(0.9726))
+    coefficients = [{"term": "schedule_lottery", "estimate": 1.161}, {"term": "trainer_distance", "estimate": -2.048}]
+    findings["diagnostics"]["reduced_form"]["coefficients"] = coefficients
+    found = item(findings, DIRECT)
+    assert "that is 84% of schedule_lottery's (1.161) and 47% of trainer_distance's (-2.048) reduced-form coefficient." in found.evidence
 
 
 def test_no_break_even_value_means_no_direct_effect_overturns_the_claim(item):

@@ -67,8 +67,8 @@ def render_markdown(findings: Mapping[str, Any], checklist: Checklist, *, data_f
         "",
         inline(
             f"{claimed_sentence(view)} We refitted the stated model on the replication file {data_file_name} "
-            f"({view.n_obs or 0:,} observations used) with naive and instrument-based estimators and ran the published "
-            f"diagnostics. {_flag_count(checklist)}"
+            f"({view.n_obs or 0:,} observations used) with {_fitted(view)} and ran the published diagnostics. "
+            f"{_flag_count(checklist)}"
         ),
         "",
         *(f"- {inline(line)}" for line in model_lines(view)),
@@ -91,6 +91,14 @@ def render_markdown(findings: Mapping[str, Any], checklist: Checklist, *, data_f
     lines += ["", "---", "", *(f"*{inline(sentence)}*" for sentence in CAUTION), ""]
     lines.append(f"*Prepared with {PRODUCT}; every number above can be recomputed with its reproduction script.*")
     return "\n".join(lines) + "\n"
+
+
+def _fitted(view: FindingsView) -> str:
+    """The estimators fitted to the focal coefficient, by name: "OLS, 2SLS and LIML"."""
+    names = [line.name for line in estimate_lines_by_term(view).get(view.focal_term or "", [])]
+    if not names:
+        return "the design's estimators"
+    return names[0] if len(names) == 1 else f"{', '.join(names[:-1])} and {names[-1]}"
 
 
 def _flag_count(checklist: Checklist) -> str:

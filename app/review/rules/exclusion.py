@@ -145,12 +145,7 @@ def assess_direct_effect(view: FindingsView) -> Outcome:
     if break_even is None:
         evidence = f"No direct effect of the instruments on {view.outcome} within the range examined makes the effect insignificant."
         return Outcome("sound", evidence)
-    share = as_number(entry.get("break_even_share_of_reduced_form"))
-    evidence = (
-        f"A direct effect of the instruments on {view.outcome} of {number(break_even)} (outcome units per unit of each "
-        "instrument) would make the claimed effect indistinguishable from zero"
-        + (f"; that is {share:.0%} of the instruments' reduced-form effect." if share is not None else ".")
-    )
+    evidence = _direct_effect_evidence(view, entry, break_even)
     if bound is None:
         return Outcome(
             "reviewer_judgement",
@@ -171,6 +166,40 @@ def assess_direct_effect(view: FindingsView) -> Outcome:
             ),
         )
     return Outcome("sound", evidence)
+
+
+def _direct_effect_evidence(view: FindingsView, entry: Mapping[str, Any], break_even: float) -> str:
+    """The two break-even values of Conley, Hansen & Rossi's union of intervals, each with what it measures.
+
+    ``break_even_delta`` is one direct effect, the same for every instrument,
+    shown against each instrument's reduced-form coefficient;
+    ``break_even_share_of_reduced_form`` is a second search, over direct
+    effects proportional to each instrument's own reduced-form coefficient.
+    """
+    parts = [
+        f"A direct effect of the instruments on {view.outcome} of {number(break_even)} (outcome units per unit of "
+        "each instrument, the same for all) would make the claimed effect indistinguishable from zero"
+    ]
+    shares = [
+        f"{abs(break_even / value):.0%} of {c.get('term')}'s ({number(value)})"
+        for c in _reduced_form_coefficients(view)
+        if (value := as_number(c.get("estimate"))) not in (None, 0.0)
+    ]
+    parts.append(f"; that is {' and '.join(shares)} reduced-form coefficient." if shares else ".")
+    share = as_number(entry.get("break_even_share_of_reduced_form"))
+    if share is not None:
+        parts.append(
+            " Searched separately, direct effects proportional to each instrument's own reduced-form coefficient "
+            f"make the claimed effect indistinguishable from zero at {share:.0%} of that coefficient."
+        )
+    return "".join(parts)
+
+
+def _reduced_form_coefficients(view: FindingsView) -> list[Mapping[str, Any]]:
+    found = view.lookup("reduced_form")
+    if not found.usable or not isinstance(found.value, Mapping):
+        return []
+    return [c for c in found.value.get("coefficients") or [] if isinstance(c, Mapping)]
 
 
 def assess_monotonicity(view: FindingsView) -> Outcome:
