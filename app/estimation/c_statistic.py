@@ -32,9 +32,9 @@ import dataclasses
 import numpy as np
 
 from app.estimation.findings import TestResult
-from app.estimation.gmm import GmmFit
+from app.estimation.gmm import GmmFit, j_statistic
 from app.estimation.inference import chi2_p
-from app.estimation.linalg import SingularMatrixError, inverse_pd
+from app.estimation.linalg import SingularMatrixError
 from app.estimation.moments import Moments
 
 SOURCE = "Eichenbaum, Hansen & Singleton (1988); Hayashi (2000), sec. 3.6"
@@ -90,13 +90,14 @@ def c_statistic(moments: Moments, *, gmm: GmmFit | None, instruments: list[str],
             ),
             suspects,
         )
+    # in GMM's conditioned basis, whose instrument columns span the same spaces ([Z_kept, W] too)
     all_instruments = layout.instruments
     kept = kept_excluded + layout.exog
     positions = [all_instruments.index(column) for column in kept]
     covariance = gmm.moment_covariance
     try:
-        full = _j_statistic(moments, all_instruments, covariance)
-        restricted = _j_statistic(moments, kept, covariance[np.ix_(positions, positions)])
+        full = j_statistic(gmm.moments, all_instruments, covariance)
+        restricted = j_statistic(gmm.moments, kept, covariance[np.ix_(positions, positions)])
     except SingularMatrixError:
         return _entry(
             TestResult.undefined(name, "the covariance of the moment conditions is singular", source=SOURCE, null_hypothesis=null),
@@ -122,18 +123,6 @@ def c_statistic(moments: Moments, *, gmm: GmmFit | None, instruments: list[str],
         ),
         suspects,
     )
-
-
-def _j_statistic(moments: Moments, instruments: list[int], covariance: np.ndarray) -> float:
-    """``g' S^{-1} g`` at the efficient GMM estimate that uses ``instruments`` with weight ``S^{-1}``."""
-    gram = moments.gram
-    regressors = moments.layout.regressors
-    weight = inverse_pd(covariance)
-    cross = gram[np.ix_(regressors, instruments)]
-    params = inverse_pd(cross @ weight @ cross.T) @ (cross @ weight @ gram[instruments, 0])
-    residual = moments.residual_vector(moments.column(0), moments.layout.selector(regressors), params)
-    moment = gram[instruments, :] @ residual
-    return float(moment @ weight @ moment)
 
 
 def _entry(result: TestResult, suspects: list[str]) -> TestResult:

@@ -34,36 +34,45 @@ from scipy import linalg
 
 from app.estimation.fits import LinearFit
 from app.estimation.linalg import SingularMatrixError, inverse_pd
-from app.estimation.moments import Moments
+from app.estimation.moments import Moments, conditioned
 
 
 def kclass(moments: Moments, *, kappa: float, code: str, terms: list[str]) -> LinearFit:
-    """Fit the k-class estimator with the given kappa."""
+    """Fit the k-class estimator with the given kappa.
+
+    The normal equations are solved in the conditioned basis of
+    :func:`app.estimation.moments.conditioned` (the k-class is invariant to a
+    change of basis of ``[X, W]`` and ``[Z, W]``) and mapped back, so that a
+    control far from zero, such as a calendar year, costs no accuracy in the
+    coefficients or the residual.
+    """
     layout = moments.layout
-    gram = moments.gram
     regressors = layout.regressors
+    basis_moments, basis = conditioned(moments)
+    gram = basis_moments.gram
     select_r = layout.selector(regressors)
     if kappa == 0.0:
         score_map = select_r
         hessian = gram[np.ix_(regressors, regressors)]
         cross_y = gram[regressors, 0]
     else:
-        fitted = moments.first_stage_map
-        projected = fitted.T @ moments.vv @ fitted
+        fitted = basis_moments.first_stage_map
+        projected = fitted.T @ basis_moments.vv @ fitted
         projected_y = fitted.T @ gram[1:, 0]
         hessian = (1.0 - kappa) * gram[np.ix_(regressors, regressors)] + kappa * projected
         cross_y = (1.0 - kappa) * gram[regressors, 0] + kappa * projected_y
         score_map = fitted
     bread = inverse_pd(hessian)
-    params = bread @ cross_y
-    residual = moments.residual_vector(moments.column(0), select_r, params)
+    # back to the claim's coordinates: b = K b~, B = K B~ K', T = P_V T~ K^{-1}
+    to_regressors = basis[np.ix_(regressors, regressors)]
+    params = to_regressors @ (bread @ cross_y)
     return LinearFit(
         code=code,
         terms=terms,
         params=params,
-        bread=bread,
-        score_map=score_map,
-        residual=residual,
+        bread=to_regressors @ bread @ to_regressors.T,
+        score_map=linalg.solve(to_regressors.T, (basis[1:, 1:] @ score_map).T).T,
+        residual=moments.residual_vector(moments.column(0), select_r, params),
         n_params=len(regressors) + moments.absorbed_dof,
         kappa=kappa,
     )

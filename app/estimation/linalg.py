@@ -43,3 +43,20 @@ def is_positive_definite(matrix: np.ndarray) -> bool:
     """True when the symmetric matrix has only positive eigenvalues (relative tolerance)."""
     values = np.linalg.eigvalsh((matrix + matrix.T) / 2)
     return bool(values.min() > 1e-12 * max(abs(values.max()), np.finfo(float).tiny))
+
+
+def whitening(matrix: np.ndarray) -> np.ndarray:
+    """Upper-triangular ``U`` with ``U' matrix U = I`` for a symmetric positive definite ``matrix``.
+
+    ``U = L^{-T}`` for the Cholesky factor ``matrix = L L'``, computed after
+    the same Jacobi scaling as :func:`inverse_pd`.
+    """
+    diag = np.sqrt(np.abs(np.diag(matrix)))
+    if np.any(diag == 0):
+        raise SingularMatrixError("a cross-product matrix has a zero diagonal element")
+    try:
+        factor = linalg.cholesky(matrix / np.outer(diag, diag), lower=True, check_finite=True)
+    except linalg.LinAlgError as error:
+        raise SingularMatrixError(str(error)) from None
+    inverse_factor = linalg.solve_triangular(factor, np.eye(matrix.shape[0]), lower=True)
+    return inverse_factor.T / diag[:, None]

@@ -84,7 +84,7 @@ def overidentification_tests(
     try:
         if gmm is None:
             raise SingularMatrixError("no GMM weight")
-        results["hansen_j"] = _chi2("hansen_j", hansen_j(moments, gmm), degree)
+        results["hansen_j"] = _chi2("hansen_j", hansen_j(gmm), degree)
     except SingularMatrixError:
         results["hansen_j"] = TestResult.undefined(
             NAMES["hansen_j"],
