@@ -6,6 +6,15 @@ left unexplained, ``1 - R^2``, decides: below :data:`EXACT_TOLERANCE` it is an
 exact linear combination (an error for the claim), below
 :data:`NEAR_TOLERANCE` it is nearly collinear (a warning: a variance
 inflation factor above 100,000 makes the estimate numerically fragile).
+
+A column is constant when its spread (sum of squares around the model's
+baseline) is negligible against its raw sum of squares at the precision the
+spread was computed to: :data:`SUMMED_SPREAD_TOLERANCE` when the spread is
+summed from exactly centred rows, whose rounding leaves a constant column a
+relative spread of order machine epsilon squared, so that an amount near
+1e6 that varies by units (relative spread 1e-12) is not constant;
+:data:`CONSTANT_TOLERANCE` when it comes from cancellation in cross-products
+or from an iterative absorption.
 """
 
 from __future__ import annotations
@@ -18,6 +27,7 @@ from scipy import linalg
 EXACT_TOLERANCE = 1e-10
 NEAR_TOLERANCE = 1e-5
 CONSTANT_TOLERANCE = 1e-12
+SUMMED_SPREAD_TOLERANCE = (1024 * np.finfo(float).eps) ** 2
 
 
 @dataclass(frozen=True)
@@ -45,6 +55,7 @@ def check_columns(
     candidates: list[int],
     spread: np.ndarray,
     scale: np.ndarray,
+    constant_tolerance: float = CONSTANT_TOLERANCE,
 ) -> CollinearityReport:
     """Check ``candidates`` one by one against ``base`` plus the candidates kept so far.
 
@@ -65,13 +76,15 @@ def check_columns(
         against it.
     scale
         Each column's raw sum of squares before any absorption; a column whose
-        spread is negligible against it is reported as constant.
+        spread is at most ``constant_tolerance`` times it is reported as constant.
+    constant_tolerance
+        The relative precision of ``spread`` (see the module notes).
     """
     kept = list(base)
     exact: list[CollinearColumn] = []
     near: list[CollinearColumn] = []
     for j in candidates:
-        if spread[j] <= CONSTANT_TOLERANCE * max(scale[j], np.finfo(float).tiny):
+        if spread[j] <= constant_tolerance * max(scale[j], np.finfo(float).tiny):
             exact.append(CollinearColumn(name=names[j], partners=[], r_squared=1.0, constant=True))
             continue
         unexplained, coefficients = _residual_share(gram, kept, j, spread[j])

@@ -23,7 +23,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from app.data.collinearity import check_columns
+from app.data.collinearity import CONSTANT_TOLERANCE, SUMMED_SPREAD_TOLERANCE, check_columns
 from app.data.filters import FilterStep, filter_mask
 from app.data.fixed_effects import AbsorbedEffects, absorb, drop_singletons
 from app.errors import DesignError
@@ -31,6 +31,7 @@ from app.spec import ClaimSpec
 
 INTERCEPT = "(intercept)"
 FEW_CLUSTERS = 50
+FAR_FROM_ZERO = 8.0
 
 
 @dataclass(frozen=True)
@@ -181,6 +182,7 @@ def build_design(frame: pd.DataFrame, spec: ClaimSpec) -> DesignMatrices:
     unit = np.ones(rows.size) if weights is None else weights
     raw_scale = np.einsum("ij,ij,i->j", data, data, unit)
     absorbed = absorb(data, fe_codes, names=list(spec.fixed_effects), weights=weights) if fe_codes else None
+    spread = _spread(data, unit, centre=use_intercept)
     if weights is not None:
         data *= np.sqrt(weights)[:, None]
     gram = data.T @ data
@@ -188,7 +190,11 @@ def build_design(frame: pd.DataFrame, spec: ClaimSpec) -> DesignMatrices:
     absorbed_columns: list[str] = []
     kept_exog = _check_collinearity(
         gram,
-        raw_scale,
+        Spread(
+            spread=spread,
+            scale=raw_scale,
+            tolerance=CONSTANT_TOLERANCE if absorbed is not None and absorbed.tolerance > 0 else SUMMED_SPREAD_TOLERANCE,
+        ),
         names=[spec.outcome, *endogenous, *instruments, *exogenous],
         n_endog=len(endogenous),
         n_instr=len(instruments),
@@ -397,9 +403,70 @@ def _level_sort_key(level: str) -> tuple[int, float | str]:
         return (1, level)
 
 
+@dataclass(frozen=True)
+class Spread:
+    """Each column's variation in the model and the rounding it is known to.
+
+    Attributes
+    ----------
+    spread
+        Sum of squares around the model's baseline, summed over the rows (two
+        passes: no cancellation).
+    scale
+        Raw sum of squares before any centring or absorption.
+    tolerance
+        ``spread / scale`` at or below which a column counts as constant: the
+        rounding of exact centring or one-way absorption, or (two-way) what
+        the alternating projections leave of a column the effects absorb.
+    """
+
+    spread: np.ndarray
+    scale: np.ndarray
+    tolerance: float
+
+
+def _spread(data: np.ndarray, weights: np.ndarray, *, centre: bool) -> np.ndarray:
+    """Weighted sum of squares of each column, around its weighted mean when ``centre`` (the model has an intercept).
+
+    Summed from the centred rows, column by column, so that a column such as
+    an amount near 1e6 that varies by units keeps its spread, which
+    ``x'x - (1'x)^2 / n`` from the cross-products would lose to rounding.
+    """
+    total = float(weights.sum())
+    spread = np.empty(data.shape[1])
+    for j in range(data.shape[1]):
+        column = data[:, j]
+        deviation = column - float(weights @ column) / total if centre else column
+        spread[j] = float(np.einsum("i,i,i->", deviation, deviation, weights))
+    return spread
+
+
+def _far_from_zero_warnings(variation: Spread, names: list[str], *, skip: int) -> list[str]:
+    """Columns whose variation is tiny against their size: cross-products around the intercept lose digits for them.
+
+    Centring inside ``x'x - (1'x)^2 / n`` loses about ``log10(scale / spread)``
+    of the 16 significant digits of double precision (Higham 2002, sec. 1.9).
+    Beyond :data:`FAR_FROM_ZERO` (8 digits lost) printed estimates may be
+    wrong beyond the digits kept; subtracting a constant from the column
+    changes only the intercept.
+    """
+    warnings = []
+    for j, name in enumerate(names):
+        if j == skip or variation.spread[j] <= 0:
+            continue
+        lost = float(np.log10(variation.scale[j] / variation.spread[j]))
+        if lost > FAR_FROM_ZERO:
+            warnings.append(
+                f"'{name}' varies little relative to its size (its spread is about 1e-{lost / 2:.0f} of its "
+                f"magnitude): computed from cross-products, estimates keep only about {16 - lost:.0f} of 16 "
+                "significant digits; subtract a constant from it (e.g. its mean), which changes only the intercept"
+            )
+    return warnings
+
+
 def _check_collinearity(
     gram: np.ndarray,
-    raw_scale: np.ndarray,
+    variation: Spread,
     *,
     names: list[str],
     n_endog: int,
@@ -421,13 +488,20 @@ def _check_collinearity(
     exog = list(range(1 + n_endog + n_instr, len(names)))
     endog = list(range(1, 1 + n_endog))
     instr = list(range(1 + n_endog, 1 + n_endog + n_instr))
-    spread = np.diag(gram).copy()
+    spread = variation.spread.copy()
     if intercept_at is not None:
-        spread = spread - gram[intercept_at] ** 2 / gram[intercept_at, intercept_at]
         spread[intercept_at] = gram[intercept_at, intercept_at]
 
     def check(base: list[int], candidates: list[int]):
-        return check_columns(gram, names, base=base, candidates=candidates, spread=spread, scale=raw_scale)
+        return check_columns(
+            gram,
+            names,
+            base=base,
+            candidates=candidates,
+            spread=spread,
+            scale=variation.scale,
+            constant_tolerance=variation.tolerance,
+        )
 
     controls = check([], exog)
     for problem in controls.exact:
@@ -438,6 +512,8 @@ def _check_collinearity(
         else:
             raise DesignError(f"control '{problem.name}' is an exact linear combination of {', '.join(problem.partners)}")
     reports = [("focal regressor", check(controls.kept, endog)), ("instrument", check(controls.kept, instr))]
+    if intercept_at is not None:
+        warnings.extend(_far_from_zero_warnings(variation, names, skip=intercept_at))
     for problem in controls.near + [p for _, report in reports for p in report.near]:
         warnings.append(
             f"'{problem.name}' is nearly collinear with {', '.join(problem.partners)} "
