@@ -157,7 +157,7 @@ def test_a_claim_form_with_problems_is_shown_again_with_them(client: TestClient,
 
     assert page.status_code == 422
     assert "choose one column as outcome, not 2 (bmi, systolic_bp)" in page.text
-    assert "claimed.n_obs: &#39;many&#39; is not a whole number" in page.text
+    assert "Observations: &#39;many&#39; is not a whole number" in page.text
     assert 'value="Two outcomes"' in page.text
     assert len(client.get(f"/api/v1/cases/{reviewed.case_id}").json()["claims"]) == 1
 
