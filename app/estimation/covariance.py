@@ -34,6 +34,7 @@ from typing import ClassVar
 
 import numpy as np
 import pandas as pd
+from scipy import sparse
 
 from app.estimation.fits import LinearFit
 from app.estimation.moments import Moments
@@ -148,33 +149,40 @@ class ClusterSums:
 
     When clusters are few relative to rows (``G * width <= n``) the per-cluster
     cross-product matrices ``A_g'A_g`` are computed once and every score sum is
-    a small matrix product; otherwise each residual vector costs one pass.
+    a small matrix product; otherwise each residual vector costs one pass,
+    summing runs of equal codes over rows taken in cluster order with a
+    sparse 0/1 matrix per chunk, built once (the design sorts rows by the
+    first clustering variable; other orders are sorted once here).
     """
 
     def __init__(self, data: np.ndarray, codes: np.ndarray) -> None:
         self.data = data
         self.codes = codes
         self.n_clusters = int(codes.max()) + 1
+        self._order: np.ndarray | None = None
+        if not np.all(codes[1:] >= codes[:-1]):
+            self._order = np.argsort(codes, kind="stable")
+        self._sorted_codes = codes if self._order is None else codes[self._order]
         self._grams: np.ndarray | None = None
         self._scores: dict[bytes, np.ndarray] = {}
+        self._chunk_summers: list[tuple[int, sparse.csr_matrix]] | None = None
         if self.n_clusters * data.shape[1] <= data.shape[0]:
             self._grams = self._cluster_grams()
 
     def _cluster_grams(self) -> np.ndarray:
         width = self.data.shape[1]
         grams = np.empty((self.n_clusters, width, width))
-        if np.all(self.codes[1:] >= self.codes[:-1]):
-            bounds = np.searchsorted(self.codes, np.arange(self.n_clusters + 1))
-            for g in range(self.n_clusters):
-                block = self.data[bounds[g] : bounds[g + 1]]
-                grams[g] = block.T @ block
-            return grams
-        order = np.argsort(self.codes, kind="stable")
-        bounds = np.searchsorted(self.codes[order], np.arange(self.n_clusters + 1))
+        bounds = np.searchsorted(self._sorted_codes, np.arange(self.n_clusters + 1))
         for g in range(self.n_clusters):
-            block = self.data[order[bounds[g] : bounds[g + 1]]]
+            block = self._rows(bounds[g], bounds[g + 1])
             grams[g] = block.T @ block
         return grams
+
+    def _rows(self, start: int, stop: int) -> np.ndarray:
+        """Rows ``start:stop`` in cluster order."""
+        if self._order is None:
+            return self.data[start:stop]
+        return self.data[self._order[start:stop]]
 
     def cross_products(self) -> np.ndarray:
         """Per-cluster cross-products ``A_g'A_g`` (``G x width x width``), computed once."""
@@ -193,11 +201,29 @@ class ClusterSums:
 
     def _pass_scores(self, vector: np.ndarray) -> np.ndarray:
         sums = np.zeros((self.n_clusters, self.data.shape[1] - 1))
-        for start in range(0, self.data.shape[0], CHUNK_ROWS):
-            block = self.data[start : start + CHUNK_ROWS]
-            weighted = block[:, 1:] * (block @ vector)[:, None]
-            np.add.at(sums, self.codes[start : start + CHUNK_ROWS], weighted)
+        for start, (first, summer) in zip(range(0, self.data.shape[0], CHUNK_ROWS), self._summers()):
+            block = self._rows(start, start + CHUNK_ROWS)
+            # a cluster cut by the chunk boundary is added to in both chunks
+            weighted = np.multiply(block[:, 1:], (block @ vector)[:, None], order="C")
+            sums[first : first + summer.shape[0]] += summer @ weighted
         return sums
+
+    def _summers(self) -> list[tuple[int, sparse.csr_matrix]]:
+        """Per chunk of rows in cluster order: its first cluster and the 0/1 matrix summing its runs of equal codes.
+
+        Codes are consecutive integers, so a chunk's clusters are a contiguous range.
+        """
+        if self._chunk_summers is None:
+            self._chunk_summers = []
+            for start in range(0, self.data.shape[0], CHUNK_ROWS):
+                codes = self._sorted_codes[start : start + CHUNK_ROWS]
+                runs = np.flatnonzero(np.concatenate([[True], codes[1:] != codes[:-1]]))
+                summer = sparse.csr_matrix(
+                    (np.ones(codes.size), np.arange(codes.size), np.append(runs, codes.size)),
+                    shape=(runs.size, codes.size),
+                )
+                self._chunk_summers.append((int(codes[0]), summer))
+        return self._chunk_summers
 
     def meat(self, left: np.ndarray, right: np.ndarray) -> np.ndarray:
         """``sum_g S_g(left) S_g(right)'``; symmetric only when the two residuals are the same."""

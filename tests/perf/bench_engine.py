@@ -17,6 +17,11 @@ sees numpy's buffers) against the size of the stacked array. Each timing is
 the best of ``--repeat`` runs. Targets: a/b <= 0.2 (0.3 with the
 weak-instrument diagnostics), a/c <= 15 (20), peak < 2 x the stacked array.
 
+Then, on the same rows, it redraws the cluster column with many clusters
+(``--many-clusters``, by default 20,000 and 100,000: more clusters than rows
+per column of the stacked array, where per-cluster cross-products would
+outgrow the data and each residual costs one pass) and prints a/b for each.
+
 Run: python tests/perf/bench_engine.py [--rows N] [--repeat R]
 """
 
@@ -77,6 +82,7 @@ def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("--rows", type=int, default=1_000_000)
     parser.add_argument("--repeat", type=int, default=3)
+    parser.add_argument("--many-clusters", type=int, nargs="*", default=[20_000, 100_000])
     arguments = parser.parse_args()
 
     frame = simulate(arguments.rows)
@@ -122,6 +128,15 @@ def main() -> None:
     print(f"(c) numpy stack + cross-product     {time_floor:8.3f} s")
     print(f"a/b = {time_engine / time_reference:.3f}   a/c = {time_engine / time_floor:.2f}")
     print(f"peak memory of (a): {peak / 2**20:,.0f} MiB = {peak / stacked_bytes:.2f} x the stacked array ({stacked_bytes / 2**20:,.0f} MiB)")
+
+    for n_clusters in arguments.many_clusters:
+        frame["cluster"] = np.random.default_rng(n_clusters).integers(0, n_clusters, len(frame))
+        time_engine = best_time(engine, arguments.repeat)
+        time_reference = best_time(reference, arguments.repeat)
+        print(
+            f"{n_clusters:,} clusters: (a) {time_engine:.3f} s  (b) {time_reference:.3f} s  "
+            f"a/b = {time_engine / time_reference:.3f}"
+        )
 
 
 if __name__ == "__main__":
