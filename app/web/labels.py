@@ -452,3 +452,125 @@ def problems_at(problems: Iterable[Problem], control: str) -> list[str]:
         for problem in problems
         if (found := problem_field(problem.field)) is not None and found[1] == control
     ]
+
+
+NESTED_FIELDS = {
+    "anderson_rubin": ("Bootstrap Anderson-Rubin test", "record"),
+    "arms": ("Treatment arms", "plain"),
+    "benchmark_bounds": ("An omitted cause as strong as a measured covariate", "table"),
+    "by_covariate": ("Balance, covariate by covariate", "table"),
+    "by_regressor": ("By focal regressor", "table"),
+    "conditioning": ("Each balance regression also includes", "plain"),
+    "contour": ("Adjusted estimate over a grid of omitted-cause strengths", "grid"),
+    "criteria": ("Critical values, criterion by criterion", "table"),
+    "critical_values": ("Critical values by the largest bias allowed", "table"),
+    "difference": ("Fixed minus random effects, term by term", "indexed"),
+    "disturbance_covariance": ("Covariance of the system's disturbances", "indexed"),
+    "drift_per_unit_direct_effect": ("How far 2SLS moves per unit of direct effect, arm by arm", "table"),
+    "equations": ("Equations", "plain"),
+    "estimates": ("The mediator's effect under each estimator", "record"),
+    "identified_set": ("Identified set (from the controlled to the bias-adjusted estimate)", "interval"),
+    "instruments": ("Instruments", "plain"),
+    "notes": ("Notes", "text"),
+    "roots": ("Solutions for the bias-adjusted estimate", "table"),
+    "skipped": ("Covariates left out", "table"),
+    "terms": ("Terms", "plain"),
+    "theta": ("Share θ of each unit's mean taken out (0 pooled OLS, 1 within), across units", "record"),
+    "unit_means_dropped_as_collinear": ("Unit means dropped as collinear", "plain"),
+    "wald": ("Bootstrap t-test of the 2SLS coefficient", "record"),
+    "warnings": ("Warnings", "text"),
+}
+"""Fields of a result that hold a list or a record: (label, how shown), after :data:`DETAIL_FIELDS`.
+
+Shown as ``plain`` or ``text`` (the items in a line), ``interval`` (a pair as
+``[low, high]``), ``table`` (a list of records: one row each), ``record``
+(one label and value a row), ``indexed`` (values beside the names listed in
+:data:`app.web.presenters.INDEXED_BY`) or ``grid`` (the omitted-cause grid, thinned).
+"""
+
+NESTED_FIELDS_BY_DIAGNOSTIC = {
+    ("c_statistic", "instruments"): ("Instruments under suspicion", "plain"),
+    ("disturbance_correlation", "by_regressor"): ("Correlation of the disturbances, by focal regressor", "table"),
+    ("plausibly_exogenous", "by_regressor"): ("Direct effect that overturns the claim, by focal regressor", "table"),
+    ("residual_correlation", "by_regressor"): ("Correlation of first-stage and structural residuals", "table"),
+}
+"""Nested fields whose meaning depends on the diagnostic: (diagnostic key, field) to (label, how shown)."""
+
+RECORD_FIELDS = {
+    "adjusted_ci_high": ("Adjusted interval, upper end", "number"),
+    "adjusted_ci_low": ("Adjusted interval, lower end", "number"),
+    "adjusted_estimate": ("Adjusted estimate", "number"),
+    "adjusted_std_error": ("Adjusted std. error", "number"),
+    "adjusted_t": ("Adjusted t", "number"),
+    "admissible": ("Admissible (both variances positive)", "text"),
+    "arm": ("Treatment arm", "plain"),
+    "available": ("Possible", "text"),
+    "benchmark": ("Benchmark covariate", "plain"),
+    "benchmark_partial_r2_focal": ("Benchmark's partial R² with the focal regressor", "number"),
+    "benchmark_partial_r2_outcome": ("Benchmark's partial R² with the outcome", "number"),
+    "bias": ("Bias", "number"),
+    "bounds": ("Bound on each instrument's direct effect", "number"),
+    "boxes": ("Union of intervals as the direct effect grows", "table"),
+    "break_even_delta": ("Direct effect at which the interval reaches zero", "number"),
+    "break_even_share_of_reduced_form": ("The same, as a share of the reduced form", "percent"),
+    "ci_high": ("Interval, upper end", "number"),
+    "ci_low": ("Interval, lower end", "number"),
+    "coefficients": ("Coefficients on the instruments", "table"),
+    "correlation": ("Correlation", "number"),
+    "covariate": ("Covariate", "plain"),
+    "criterion": ("Criterion", "text"),
+    "critical_t": ("Critical |t|", "number"),
+    "critical_value": ("Critical value", "number"),
+    "critical_values": ("Critical values", "table"),
+    "delta": ("Direct effect up to", "setting"),
+    "df": ("Degrees of freedom", "df"),
+    "drift": ("Shift of 2SLS per unit of direct effect", "number"),
+    "estimate": ("Estimate", "number"),
+    "exceeds": ("Statistic above it", "text"),
+    "excludes_zero": ("Excludes zero", "text"),
+    "generalized": ("Generalized critical value", "number"),
+    "generalized_k_eff": ("Effective number of instruments, generalized", "number"),
+    "instrument": ("Instrument", "plain"),
+    "interval": ("Union of the intervals", "interval"),
+    "interval_without_direct_effect": ("Interval without a direct effect", "interval"),
+    "meaning": ("What it limits", "text"),
+    "method": ("Method", "text"),
+    "multiplier": ("Times as strong as the benchmark", "setting"),
+    "null_hypothesis": ("Null hypothesis", "text"),
+    "observed_index_variance": ("Variance of the index of observed causes", "number"),
+    "p_value": ("p-value", "p_value"),
+    "r2dz_x": ("Omitted cause's partial R² with the focal regressor", "number"),
+    "r2yz_dx": ("Omitted cause's partial R² with the outcome", "number"),
+    "r2yz_dx_capped": ("Outcome share capped at 1", "text"),
+    "reason": ("Why", "text"),
+    "regressor": ("Focal regressor", "plain"),
+    "share_of_reduced_form": ("Direct effect up to this share of the reduced form", "percent"),
+    "simplified": ("Simplified critical value", "number"),
+    "simplified_k_eff": ("Effective number of instruments, simplified", "number"),
+    "statistic": ("Statistic", "number"),
+    "std_error": ("Std. error", "number"),
+    "tabulated": ("Tabulated", "text"),
+    "tau": ("Largest bias allowed (τ, share of the benchmark)", "percent"),
+    "threshold": ("Largest value tolerated", "percent"),
+    "unobserved_index_variance": ("Variance of the index of unobserved causes", "number"),
+}
+"""Fields inside a nested list or record: (label, how written)."""
+
+RECORD_FIELDS_BY_PARENT = {
+    ("estimates", "2sls"): ("2SLS with the arms as instruments", "number"),
+    ("estimates", "ols"): ("OLS of the outcome on the mediator", "number"),
+    ("estimates", "ols_with_treatment"): ("OLS with the arms held fixed", "number"),
+    ("theta", "max"): ("Largest", "number"),
+    ("theta", "median"): ("Median", "number"),
+    ("theta", "min"): ("Smallest", "number"),
+}
+"""Keys inside a record whose meaning depends on the field holding it: (field, key) to (label, how written)."""
+
+RECORD_VALUES = {
+    "criterion": {
+        "tsls_relative_bias": "Bias of 2SLS relative to OLS",
+        "tsls_size": "Size of the 2SLS Wald test",
+        "liml_size": "Size of the LIML Wald test",
+    },
+}
+"""Words for coded values inside nested records; an unlisted value shows as the engine wrote it."""

@@ -58,7 +58,7 @@
     var status = form.querySelector('[id^="saved-"]');
     if (status) {
       status.textContent = "Not saved: " + reason;
-      status.className = "state-failed";
+      status.className = "save-refused";
     }
   }
 

@@ -67,9 +67,9 @@ def unlabelled(findings: dict[str, Any]) -> list[str]:
         for field in shown.fields() - presenters.RESULT_FIELDS:
             listed = (
                 field in labels.DETAIL_FIELDS
-                or field in presenters.NESTED_FIELDS
+                or field in labels.NESTED_FIELDS
                 or (key, field) in labels.DETAIL_FIELDS_BY_DIAGNOSTIC
-                or (key, field) in presenters.NESTED_FIELDS_BY_DIAGNOSTIC
+                or (key, field) in labels.NESTED_FIELDS_BY_DIAGNOSTIC
             )
             if not listed and field != "confidence_set":
                 missing.append(f"{key}.{field}")
@@ -77,8 +77,8 @@ def unlabelled(findings: dict[str, Any]) -> list[str]:
             if table.field in presenters.INDEXED_BY:
                 continue
             for inner in table.keys:
-                labelled = inner in presenters.RECORD_FIELDS or any(
-                    name == inner for _, name in presenters.RECORD_FIELDS_BY_PARENT
+                labelled = inner in labels.RECORD_FIELDS or any(
+                    name == inner for _, name in labels.RECORD_FIELDS_BY_PARENT
                 )
                 if not labelled:
                     missing.append(f"{key}.{table.field}.{inner}")
