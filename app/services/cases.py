@@ -285,8 +285,10 @@ def delete_case(ctx: ServiceContext, *, case_id: int) -> DeletionReport:
     table with a ``case_id`` column (and the judgements of its refits) is
     searched for the case, and the file store for its files; anything found is
     an internal error. The case's own audit entries go with it; the deletion is
-    recorded in the server's audit trail with the case's title and manuscript
-    reference, who deleted it and how much of each kind went (:func:`removed_words`).
+    recorded in the server's audit trail with the case's number, who deleted it
+    and how much of each kind went (:func:`removed_words`). Its title and
+    manuscript reference are not kept: they can name a confidential manuscript,
+    and a deleted case leaves nothing of its own behind.
     """
     with ctx.files_lock:
         with ctx.transaction() as session:
@@ -294,7 +296,6 @@ def delete_case(ctx: ServiceContext, *, case_id: int) -> DeletionReport:
             hashes = {dataset.sha256 for dataset in case.datasets}
             refit_ids = [refit.id for refit in case.refits]
             counts = _rows_of(session, case_id, refit_ids)
-            subject = f"case {case_id}: {case.title}" + (f" ({case.reference})" if case.reference else "")
             session.delete(case)
             session.flush()
             still_used = set(session.scalars(select(Dataset.sha256).where(Dataset.sha256.in_(hashes))).all())
@@ -303,7 +304,7 @@ def delete_case(ctx: ServiceContext, *, case_id: int) -> DeletionReport:
                 session,
                 actor=ctx.actor,
                 action="case_deleted",
-                subject=subject,
+                subject=f"case {case_id}",
                 detail=removed_words(counts, files_erased=len(erased), files_kept=len(hashes & still_used)),
             )
         for sha256 in erased:
