@@ -16,6 +16,7 @@ singletons, absorbed columns, collinearity) is recorded in
 
 from __future__ import annotations
 
+import dataclasses
 import difflib
 from dataclasses import dataclass
 from typing import Any
@@ -25,7 +26,7 @@ import pandas as pd
 
 from app.data.collinearity import CONSTANT_TOLERANCE, SUMMED_SPREAD_TOLERANCE, check_columns
 from app.data.filters import FilterStep, filter_mask
-from app.data.fixed_effects import AbsorbedEffects, absorb, drop_singletons
+from app.data.fixed_effects import AbsorbedEffects, absorb, dof_nested_in_clusters, drop_singletons
 from app.errors import DesignError
 from app.spec import ClaimSpec
 
@@ -124,6 +125,11 @@ class DesignMatrices:
         return self.absorbed.dof if self.absorbed else 0
 
     @property
+    def nested_dof(self) -> int:
+        """Absorbed degrees of freedom nested within the (one-way) clusters; the cluster factor leaves them out of k."""
+        return self.absorbed.nested_dof if self.absorbed else 0
+
+    @property
     def columns(self) -> list[str]:
         """Names of the columns of ``data`` in order."""
         return [self.outcome, *self.endogenous, *self.instruments, *self.exogenous]
@@ -182,6 +188,8 @@ def build_design(frame: pd.DataFrame, spec: ClaimSpec) -> DesignMatrices:
     unit = np.ones(rows.size) if weights is None else weights
     raw_scale = np.einsum("ij,ij,i->j", data, data, unit)
     absorbed = absorb(data, fe_codes, names=list(spec.fixed_effects), weights=weights) if fe_codes else None
+    if absorbed is not None:
+        absorbed = dataclasses.replace(absorbed, nested_dof=dof_nested_in_clusters(absorbed, fe_codes, cluster_codes))
     spread = _spread(data, unit, centre=use_intercept)
     if weights is not None:
         data *= np.sqrt(weights)[:, None]

@@ -42,12 +42,14 @@ class AbsorbedEffects:
     components: int
     iterations: int
     tolerance: float
+    nested_dof: int = 0
 
     def to_dict(self) -> dict[str, object]:
         return {
             "columns": list(self.names),
             "levels": list(self.levels),
             "dof": self.dof,
+            "dof_nested_in_clusters": self.nested_dof,
             "connected_components": self.components,
             "iterations": self.iterations,
             "tolerance": self.tolerance,
@@ -137,6 +139,22 @@ def _count_components(codes: list[np.ndarray], levels: list[int]) -> int:
     )
     count, _ = connected_components(edges, directed=False)
     return int(count)
+
+
+def dof_nested_in_clusters(effects: AbsorbedEffects, codes: list[np.ndarray], clusters: list[np.ndarray]) -> int:
+    """Degrees of freedom of the absorbed effects whose every level lies within one cluster (one-way clustering).
+
+    A nested set counts all its levels; with two sets of which one is nested
+    the other keeps the redundant level of each connected component. Two-way
+    clustering counts none: an effect nested in one clustering variable is not
+    nested in the intersections.
+    """
+    if len(clusters) != 1:
+        return 0
+    nested = [nested_within(column, clusters[0]) for column in codes]
+    if all(nested):
+        return effects.dof
+    return sum(levels for levels, inside in zip(effects.levels, nested) if inside)
 
 
 def nested_within(inner: np.ndarray, outer: np.ndarray) -> bool:

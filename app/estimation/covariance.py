@@ -12,7 +12,11 @@ Small-sample conventions (they equal linearmodels' ``debiased=True``):
 homoskedastic ``s^2 = e'e/(n-k)``; robust HC1, ``n/(n-k)`` (MacKinnon & White
 1985); cluster ``G/(G-1) (n-1)/(n-k)`` per clustering dimension, and two-way
 ``V_1 + V_2 - V_12`` (Cameron, Gelbach & Miller 2011). ``k`` counts the
-coefficients plus the absorbed fixed effects. Coefficient tests use Student's
+coefficients plus the absorbed fixed effects, except in the cluster factor,
+which leaves out effects nested within the clusters: the cluster-robust
+variance is consistent as the number of clusters grows however many such
+effects there are, and counting them would make the factor grow with their
+number (Cameron & Miller 2015, sec. III.B). Coefficient tests use Student's
 t with ``n-k`` degrees of freedom, or ``G-1`` when clustered (Cameron & Miller
 2015, with ``G`` the smaller number of clusters in two-way clustering).
 
@@ -260,13 +264,21 @@ class ClusterRobust(VarianceEstimator):
     @property
     def small_sample(self) -> str:
         if len(self.dimensions) == 1:
-            return "G/(G-1) * (n-1)/(n-k)"
-        return "G_d/(G_d-1) * (n-1)/(n-k) for each of the three terms V_1 + V_2 - V_12"
+            text = "G/(G-1) * (n-1)/(n-k)"
+        else:
+            text = "G_d/(G_d-1) * (n-1)/(n-k) for each of the three terms V_1 + V_2 - V_12"
+        nested = self.moments.nested_dof
+        if nested:
+            text += (
+                f"; k leaves out the {nested:,} absorbed fixed effects nested within the clusters "
+                "(Cameron & Miller 2015, sec. III.B)"
+            )
+        return text
 
     def factor(self, n_params: int) -> float:
-        """The common factor ``(n-1)/(n-k)``; the per-dimension ``G/(G-1)`` is applied in :meth:`meat`."""
+        """The common factor ``(n-1)/(n-k)``, k without nested effects; ``G/(G-1)`` is applied in :meth:`meat`."""
         n = self.moments.n_obs
-        return (n - 1) / (n - n_params)
+        return (n - 1) / (n - n_params + self.moments.nested_dof)
 
     def inference_df(self, n_params: int) -> int:
         return min(self.n_clusters) - 1

@@ -86,12 +86,16 @@ class Moments:
     absorbed_dof
         Degrees of freedom used by absorbed fixed effects; counted in every
         residual degrees-of-freedom figure.
+    nested_dof
+        The part of ``absorbed_dof`` that belongs to effects nested within the
+        clusters; the cluster-robust small-sample factor leaves it out of k.
     """
 
     gram: np.ndarray
     n_obs: int
     layout: Layout
     absorbed_dof: int = 0
+    nested_dof: int = 0
 
     def quad(self, left: np.ndarray, right: np.ndarray) -> float:
         """``(A left)'(A right)`` for residual or combination vectors over the columns of A."""
