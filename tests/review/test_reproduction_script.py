@@ -2,12 +2,16 @@
 
 The script is written, run in a subprocess on a data file, and its
 ``key = value`` lines are compared with the engine's findings for the same
-file. The demo case comes from seed_demo (built into a temporary folder by
+file; where the script also prints the review's own value beside a number
+(the panel tests), that value must be the findings' value exactly. The demo case comes from seed_demo (built into a temporary folder by
 its own generator); the invented cases exercise the sample rules the script
 must mirror: text and numeric filters in order (missing values fail them),
 listwise deletion, categorical indicators, analytic weights, one- and
-two-way fixed effects, one- and two-way clustering, classical errors.
-Reference: linearmodels (IV2SLS, IVLIML, IVGMM) inside the script; the
+two-way fixed effects, one- and two-way clustering, classical errors; the
+panel cases add the Mundlak test (clustered by the claim's clusters when they
+contain the units, by unit otherwise) and the classical Hausman test.
+Reference: linearmodels (IV2SLS, IVLIML, IVGMM, RandomEffects) and scipy's
+F and chi-squared tails inside the script; the
 engine's agreement with linearmodels is checked in tests/estimation.
 """
 
@@ -32,7 +36,8 @@ from tests.design_simulation import PanelDesign, SelectionDesign, panel_sample, 
 from tests.simulation import IvDesign, iv_sample
 
 RELATIVE_TOLERANCE = 1e-8
-LINE = re.compile(r"^(?P<key>[^\s=#][^=]*?) = (?P<value>\S+)$")
+LINE = re.compile(r"^(?P<key>[^\s=#][^=]*?) = (?P<value>\S+)(?:  \(in the review: (?P<review>\S+)\))?$")
+PANEL_TESTS = {"mundlak", "mundlak.p_value", "hausman_fe_re", "hausman_fe_re.df", "hausman_fe_re.p_value"}
 KEY = re.compile(r"^(?P<code>[\w]+)\.(?P<field>estimate|std_error)\[(?P<term>.+)\]$")
 
 
@@ -57,6 +62,12 @@ def key_numbers(output: str) -> dict[str, float]:
     return numbers
 
 
+def review_numbers(output: str) -> dict[str, float]:
+    """The review's values the script prints beside its own, by key."""
+    matches = (LINE.match(line) for line in output.splitlines())
+    return {match["key"]: float(match["review"]) for match in matches if match and match["review"]}
+
+
 def engine_number(findings: dict, key: str) -> float | None:
     """The findings' value for one of the script's keys (None if the findings lack it)."""
     if key == "n_obs":
@@ -70,15 +81,19 @@ def engine_number(findings: dict, key: str) -> float | None:
         term = key[len("first_stage_f[") : -1]
         return next(e["statistic"] for e in findings["diagnostics"]["first_stage"] if e["regressor"] == term)
     name, _, field = key.partition(".")
-    return findings["diagnostics"][name]["p_value" if field == "p_value" else "statistic"]
+    return findings["diagnostics"][name][field or "statistic"]
 
 
-def assert_same_numbers(findings: dict, numbers: dict[str, float], *, expected_keys: set[str]) -> None:
+def assert_same_numbers(findings: dict, output: str, *, expected_keys: set[str]) -> None:
+    """Every number the script printed is the engine's, and so is every review value printed beside one."""
+    numbers = key_numbers(output)
     assert expected_keys <= set(numbers), sorted(set(numbers))
     for key, value in numbers.items():
         reference = engine_number(findings, key)
         assert reference is not None, key
         assert value == pytest.approx(reference, rel=RELATIVE_TOLERANCE, abs=1e-12), key
+    for key, value in review_numbers(output).items():
+        assert value == engine_number(findings, key), key
 
 
 def iv_keys(term: str, *, codes=("ols", "2sls", "liml", "fuller1", "fuller4", "gmm"), overid: str | None = "hansen_j") -> set[str]:
@@ -92,13 +107,16 @@ def test_script_reproduces_the_demo_case(scenario, tmp_path):
     case = write_case(scenario, tmp_path)
     spec = load_claim(case.claim_file)
     findings = refit(pd.read_csv(case.data_file), spec).to_dict()
-    numbers = key_numbers(run_script(findings, case.data_file, tmp_path))
+    output = run_script(findings, case.data_file, tmp_path)
     term = spec.focal[0]
     codes = {"iv": ["ols"], "mediation": ["ols", "ols_with_treatment"], "panel": ["pooled_ols", "within", "random_effects"]}
     expected = {"n_obs"} | {f"{code}.{field}[{term}]" for code in codes[spec.design.value] for field in ("estimate", "std_error")}
     if spec.excluded_instruments:
         expected |= {f"2sls.estimate[{term}]", f"liml.std_error[{term}]", f"first_stage_f[{term}]"}
-    assert_same_numbers(findings, numbers, expected_keys=expected)
+    if spec.design.value == "panel":
+        expected |= PANEL_TESTS
+        assert set(review_numbers(output)) == PANEL_TESTS
+    assert_same_numbers(findings, output, expected_keys=expected)
 
 
 def invented_frame(seed: int) -> pd.DataFrame:
@@ -156,11 +174,11 @@ def test_script_mirrors_the_engine_on_invented_data(case, tmp_path):
     fields = CASES[case]
     spec = parse_claim({**BASE, **fields})
     findings = refit(pd.read_csv(data_file), spec).to_dict()
-    numbers = key_numbers(run_script(findings, data_file, tmp_path))
+    output = run_script(findings, data_file, tmp_path)
     two_way = len(fields.get("cluster", [])) == 2
     codes = ("ols", "2sls", "liml", "fuller1", "fuller4") + (() if two_way else ("gmm",))
     overid = None if two_way else ("sargan" if fields["covariance"] == "homoskedastic" else "hansen_j")
-    assert_same_numbers(findings, numbers, expected_keys=iv_keys("focal", codes=codes, overid=overid))
+    assert_same_numbers(findings, output, expected_keys=iv_keys("focal", codes=codes, overid=overid))
 
 
 def test_script_turns_claim_text_into_literals_only(tmp_path):
@@ -208,7 +226,21 @@ def test_script_for_the_other_designs(case, tmp_path):
     data_file = tmp_path / "design.csv"
     generate(np.random.default_rng(31)).to_csv(data_file, index=False)
     findings = refit(pd.read_csv(data_file), parse_claim(claim)).to_dict()
-    numbers = key_numbers(run_script(findings, data_file, tmp_path))
+    output = run_script(findings, data_file, tmp_path)
     term = claim["endogenous"][0]
     expected = {"n_obs"} | {f"{code}.{field}[{term}]" for code in codes for field in ("estimate", "std_error")}
-    assert_same_numbers(findings, numbers, expected_keys=expected)
+    if claim["design"] == "panel":
+        expected |= PANEL_TESTS
+    assert_same_numbers(findings, output, expected_keys=expected)
+
+
+def test_script_leaves_out_a_panel_test_the_review_could_not_compute(tmp_path):
+    """No Mundlak line when the findings hold no Mundlak statistic; the Hausman test is still recomputed."""
+    generate, claim, _ = OTHER_DESIGNS["panel with classical errors"]
+    data_file = tmp_path / "design.csv"
+    generate(np.random.default_rng(31)).to_csv(data_file, index=False)
+    findings = refit(pd.read_csv(data_file), parse_claim(claim)).to_dict()
+    findings["diagnostics"]["mundlak"] = {"standing": "not_applicable", "reason": "no regressor varies within units"}
+    output = run_script(findings, data_file, tmp_path)
+    assert not {"mundlak", "mundlak.p_value"} & set(key_numbers(output))
+    assert {"hausman_fe_re", "hausman_fe_re.df", "hausman_fe_re.p_value"} <= set(review_numbers(output))

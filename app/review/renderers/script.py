@@ -16,7 +16,8 @@ is written with :func:`repr`, so no text from the claim can become code.
 Scope: the ``iv``, ``regression`` and ``mediation`` designs (OLS, 2SLS,
 LIML, Fuller, two-step GMM, the naive fit holding the randomized arms fixed,
 first-stage F, Sargan or Hansen J) and the ``panel`` design (pooled OLS,
-within, random effects as linearmodels computes them, when the claim has no
+within, random effects as linearmodels computes them, and the Mundlak and
+classical Hausman tests that drive the panel item, when the claim has no
 weights, extra fixed effects or two-way clusters). For the ``selection``
 design the script recomputes the OLS fit on the selected rows; the Heckman
 correction is not rewritten. Two-step GMM and Hansen J are left out under
@@ -25,6 +26,7 @@ two-way clustering, which linearmodels' GMM weight does not support.
 
 from __future__ import annotations
 
+import math
 import textwrap
 from collections.abc import Mapping
 from typing import Any
@@ -52,9 +54,10 @@ HEADER = '''#!/usr/bin/env python3
 
 Usage: python <this file> [DATA_FILE]    (default: the original file name below)
 
-Needs pandas, numpy and linearmodels. The steps mirror how SecondStage built the
-estimation sample; the script prints the key numbers as "key = value" lines
-that can be compared with the review.
+Needs pandas, numpy and linearmodels (which brings scipy). The steps mirror how
+SecondStage built the estimation sample; the script prints the key numbers as
+"key = value" lines that can be compared with the review (for the tests that
+decide an item, the review's own value is printed beside the recomputed one).
 
 {caution}
 
@@ -116,10 +119,11 @@ def wald_f(fit, names: list[str], *, dof_scale: float = 1.0) -> float:
     return float(estimate @ np.linalg.solve(covariance, estimate)) / len(names)
 
 
-def show(key: str, value) -> None:
-    """Print one key number at full precision."""
+def show(key: str, value, review=None) -> None:
+    """Print one key number at full precision, and the review's value beside it when given."""
     number = value if isinstance(value, int) else float(value)
-    print(f"{key} = {number!r}")
+    beside = "" if review is None else f"  (in the review: {review!r})"
+    print(f"{key} = {number!r}{beside}")
 '''
 
 DEMEAN_HELPERS = '''
@@ -174,7 +178,9 @@ def render_script(findings: Mapping[str, Any], checklist: Checklist, *, data_fil
             caution=textwrap.fill(CAUTION[0], width=80),
             title=repr(view.title),
             data_file=repr(data_file_name),
-            panel_import="from linearmodels.panel import RandomEffects\n" if view.design == "panel" else "",
+            panel_import=(
+                "from linearmodels.panel import RandomEffects\nfrom scipy import stats\n" if view.design == "panel" else ""
+            ),
         ),
         READ_HELPER,
     ]
@@ -368,6 +374,7 @@ def _fits(
             "    for code in ('2sls', 'liml', 'fuller1', 'fuller4', 'gmm'):",
             f"        scales[code] = (n_obs - {k}) / (n_obs - {k} - absorbed)",
         ]
+    panel_rewritten = view.design == "panel" and _panel_rewritable(view, clusters)
     if view.design == "panel":
         lines += _panel_fits(view, focal=focal, exogenous=exogenous, clusters=clusters, kind=kind)
     lines += [
@@ -376,6 +383,8 @@ def _fits(
         "            show(f'{code}.estimate[{term}]', fit.params[term])",
         "            show(f'{code}.std_error[{term}]', fit.std_errors[term] * scales[code] ** 0.5)",
     ]
+    if panel_rewritten:
+        lines += _mundlak(view, focal=focal, kind=kind) + _hausman(view, focal=focal)
     if not instruments:
         return lines
     lines += [
@@ -399,11 +408,21 @@ def _fits(
     return lines
 
 
+def _panel_rewritable(view: FindingsView, clusters: list[str]) -> bool:
+    """Whether the script rewrites the panel fits: a unit is named, without weights, extra fixed effects or two-way clusters."""
+    return (
+        view.claim_name("unit") is not None
+        and not view.claim_name("weights")
+        and not view.claim_names("fixed_effects")
+        and len(clusters) < 2
+    )
+
+
 def _panel_fits(view: FindingsView, *, focal: list[str], exogenous: list[str], clusters: list[str], kind: str) -> list[str]:
     """Within and random-effects fits of the panel design (without weights, fixed effects or two-way clusters)."""
-    unit, time = view.claim_name("unit"), view.claim_name("time")
-    if unit is None or view.claim_name("weights") or view.claim_names("fixed_effects") or len(clusters) == 2:
+    if not _panel_rewritable(view, clusters):
         return ["    # The within and random-effects fits are not rewritten for weights, extra fixed effects or two-way clusters."]
+    unit, time = view.claim_name("unit"), view.claim_name("time")
     within = view.design_columns("within") or focal
     outcome = view.outcome
     columns = [outcome, *within]
@@ -436,7 +455,95 @@ def _panel_fits(view: FindingsView, *, focal: list[str], exogenous: list[str], c
             "    panel_options.update(clusters=pd.DataFrame(clusters.to_numpy(), index=panel.index), group_debias=True)",
         ]
     lines += [
-        f"    fits['random_effects'] = RandomEffects(panel[{outcome!r}], panel[{exogenous[:1] + focal + exogenous[1:]!r}]).fit(**panel_options)",
+        f"    random_columns = {exogenous[:1] + focal + exogenous[1:]!r}",
+        f"    fits['random_effects'] = RandomEffects(panel[{outcome!r}], panel[random_columns]).fit(**panel_options)",
         "    scales['random_effects'] = 1.0",
     ]
     return lines
+
+
+def _mundlak(view: FindingsView, *, focal: list[str], kind: str) -> list[str]:
+    """The Mundlak test as the engine computes it (app/estimation/panel.py, ``mundlak_test``).
+
+    Pooled OLS of the outcome on the regressors and the unit means of the
+    time-varying ones, errors clustered by unit (by the claim's clusters when
+    these contain whole units); the Wald statistic of the means divided by
+    their number, against F(m, G - 1). Mundlak (1978); Wooldridge (2010),
+    sec. 10.7.3.
+    """
+    found = view.lookup("mundlak")
+    if not found.usable:
+        return ["", "    # The review has no Mundlak test for this claim (its findings say why), so none is recomputed."]
+    test = found.value
+    dropped = {str(name) for name in test.get("unit_means_dropped_as_collinear") or []}
+    varying = [column for column in view.design_columns("within") or focal if f"unit mean of {column}" not in dropped]
+    if kind == "cluster":
+        clusters = "clusters if nested else pd.DataFrame({'unit': pd.factorize(unit)[0]}, index=frame.index)"
+    else:
+        clusters = "pd.DataFrame({'unit': pd.factorize(unit)[0]}, index=frame.index)"
+    lines = [
+        "",
+        "    # Mundlak (1978) test of random against fixed effects: pooled OLS with the unit means of the",
+        "    # time-varying regressors added, errors clustered by unit (by the claim's clusters when they contain",
+        "    # whole units); Wald test that the means' coefficients are zero, divided by their number m, against",
+        "    # F(m, G - 1). A small p-value says the unit effects correlate with the regressors.",
+    ]
+    if dropped:
+        lines.append(f"    # Left out as in the review, collinear with the regressors: {sorted(dropped)!r}.")
+    lines += [
+        f"    unit_means = data[{varying!r}].groupby(unit).transform('mean').add_prefix('unit mean of ')",
+        f"    mundlak_clusters = {clusters}",
+        "    mundlak_fit = IV2SLS(outcome, pd.concat([regressors, unit_means], axis=1), None, None).fit(",
+        "        cov_type='clustered', clusters=mundlak_clusters, debiased=True",
+        "    )",
+        "    mundlak = wald_f(mundlak_fit, list(unit_means.columns))",
+        "    mundlak_df = (unit_means.shape[1], mundlak_clusters.iloc[:, 0].nunique() - 1)",
+        f"    show('mundlak', mundlak, review={_reported(test.get('statistic'))})",
+        f"    show('mundlak.p_value', stats.f.sf(mundlak, *mundlak_df), review={_reported(test.get('p_value'))})",
+    ]
+    return lines
+
+
+def _hausman(view: FindingsView, *, focal: list[str]) -> list[str]:
+    """The classical Hausman test as the engine computes it (app/estimation/panel.py, ``hausman_test``).
+
+    ``H = d' [V_FE - V_RE]^+ d`` over the within coefficients, ``d`` the
+    difference of the within and random-effects estimates, both variances
+    classical, the unit effects counted in the within fit's k; when the
+    variance difference is not positive definite only its positive
+    eigenvalues are used, and the degrees of freedom are their number.
+    Hausman (1978); Wooldridge (2010), sec. 10.7.3.
+    """
+    found = view.lookup("hausman_fe_re")
+    if not found.usable:
+        return ["", "    # The review has no Hausman test for this claim (its findings say why), so none is recomputed."]
+    test = found.value
+    within = view.design_columns("within") or focal
+    outcome = view.outcome
+    return [
+        "",
+        "    # Hausman (1978) test of fixed against random effects: the difference of the within and random-effects",
+        "    # coefficients over the difference of their classical variances (unit effects counted in the within k).",
+        "    # When that difference is not positive definite, only its positive eigenvalues are used.",
+        f"    common = {within!r}",
+        f"    within_classical = IV2SLS(demeaned[{outcome!r}], demeaned[common], None, None).fit(cov_type='unadjusted', debiased=True)",
+        f"    random_classical = RandomEffects(panel[{outcome!r}], panel[random_columns]).fit(cov_type='unadjusted', debiased=True)",
+        "    difference = (within_classical.params[common] - random_classical.params[common]).to_numpy()",
+        "    k = len(common)",
+        "    within_variance = within_classical.cov.loc[common, common].to_numpy() * (n_obs - k) / (n_obs - k - unit.nunique())",
+        "    variance = within_variance - random_classical.cov.loc[common, common].to_numpy()",
+        "    values, vectors = np.linalg.eigh((variance + variance.T) / 2)",
+        "    positive = values > 1e-10 * np.abs(values).max()",
+        "    hausman = float(np.sum((vectors[:, positive].T @ difference) ** 2 / values[positive]))",
+        "    hausman_df = int(positive.sum())",
+        f"    show('hausman_fe_re', hausman, review={_reported(test.get('statistic'))})",
+        f"    show('hausman_fe_re.df', hausman_df, review={_reported(test.get('df'))})",
+        f"    show('hausman_fe_re.p_value', stats.chi2.sf(hausman, hausman_df), review={_reported(test.get('p_value'))})",
+    ]
+
+
+def _reported(value: object) -> str:
+    """A number from the findings as a Python literal; ``None`` when the findings hold none."""
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value):
+        return "None"
+    return repr(value)
