@@ -63,7 +63,7 @@ from app.estimation.confidence_sets import grid_inversion
 from app.estimation.findings import TestResult
 from app.estimation.inference import CONFIDENCE_LEVEL
 from app.estimation.linalg import is_positive_definite
-from app.estimation.reduced_form_system import ReducedFormSystem
+from app.estimation.reduced_form_system import EXACT_FIRST_STAGE, ReducedFormSystem
 
 QUADRATURE_NODES = 64
 NULL = "the focal regressor has no effect (beta = 0); valid however weak the instruments are"
@@ -71,6 +71,15 @@ SOURCE_K = "Kleibergen (2002, 2005)"
 SOURCE_CLR = "Moreira (2003); Andrews, Moreira & Stock (2006); robust form: Kleibergen (2005, 2007)"
 NAMES = {"kleibergen_k": "Kleibergen K (score) test", "clr": "Conditional likelihood ratio (CLR) test"}
 SOURCES = {"kleibergen_k": SOURCE_K, "clr": SOURCE_CLR}
+K_DISTRIBUTION = (
+    "referred to chi-squared(1), its asymptotic distribution (Kleibergen 2002); the Anderson-Rubin test uses "
+    "F(q, df), so with few degrees of freedom its set is somewhat wider even where the statistics coincide"
+)
+CLR_DISTRIBUTION = (
+    "referred to its null distribution conditional on r, built from chi-squared variables (Moreira 2003), "
+    "asymptotic like the K test's; with one instrument it is chi-squared(1) and CLR = K = the chi-squared "
+    "form of Anderson-Rubin, whose set differs only by its F(q, df) reference"
+)
 
 
 @dataclass(frozen=True)
@@ -195,6 +204,8 @@ def conditional_tests(system: ReducedFormSystem, *, level: float = CONFIDENCE_LE
         )
         return {key: TestResult.not_applicable(NAMES[key], reason, source=SOURCES[key], null_hypothesis=NULL) for key in NAMES}
     joint = system.stacked_covariance([0, 1])
+    if system.exact_first_stage:
+        return {key: TestResult.undefined(NAMES[key], EXACT_FIRST_STAGE, source=SOURCES[key], null_hypothesis=NULL) for key in NAMES}
     if not is_positive_definite((joint + joint.T) / 2):
         reason = (
             "the joint covariance of the reduced-form and first-stage coefficients is singular (for example "
@@ -227,7 +238,7 @@ def conditional_tests(system: ReducedFormSystem, *, level: float = CONFIDENCE_LE
             distribution="chi2",
             null_hypothesis=NULL,
             source=SOURCE_K,
-            details={"tested_value": 0.0, **k_set.to_details()},
+            details={"tested_value": 0.0, "distribution_note": K_DISTRIBUTION, **k_set.to_details()},
         ),
         "clr": TestResult(
             name=NAMES["clr"],
@@ -237,7 +248,12 @@ def conditional_tests(system: ReducedFormSystem, *, level: float = CONFIDENCE_LE
             distribution="conditional on r (Moreira 2003)",
             null_hypothesis=NULL,
             source=SOURCE_CLR,
-            details={"tested_value": 0.0, "conditioning_statistic": rank_at_zero, **clr_set.to_details()},
+            details={
+                "tested_value": 0.0,
+                "conditioning_statistic": rank_at_zero,
+                "distribution_note": CLR_DISTRIBUTION,
+                **clr_set.to_details(),
+            },
         ),
     }
 

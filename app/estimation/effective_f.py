@@ -42,7 +42,7 @@ import numpy as np
 from scipy import linalg, optimize, stats
 
 from app.estimation.findings import TestResult
-from app.estimation.reduced_form_system import ReducedFormSystem
+from app.estimation.reduced_form_system import EXACT_FIRST_STAGE, ReducedFormSystem
 
 TAUS = (0.05, 0.10, 0.20, 0.30)
 SIGNIFICANCE = 0.05
@@ -62,6 +62,8 @@ def effective_f(system: ReducedFormSystem) -> TestResult:
             source=SOURCE,
             null_hypothesis=NULL,
         )
+    if system.exact_first_stage:
+        return TestResult.undefined(NAME, EXACT_FIRST_STAGE, source=SOURCE, null_hypothesis=NULL)
     q = system.n_instruments
     metric = system.instrument_gram
     pi = system.coefficients[:, 1]

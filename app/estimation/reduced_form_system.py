@@ -25,6 +25,9 @@ invariant similar tests for instrumental variables regression. Econometrica
 74(3), 715-752.
 Kleibergen, F. (2005). Testing parameters in GMM without assuming that they
 are identified. Econometrica 73(4), 1103-1123.
+Chesher, A. and Jewitt, I. (1987). The bias of a heteroskedasticity consistent
+covariance matrix estimator. Econometrica 55(5), 1217-1222.
+MacKinnon, J. G. and White, H. (1985). Journal of Econometrics 29(3), 305-325.
 """
 
 from __future__ import annotations
@@ -32,6 +35,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+from scipy import linalg
 
 from app.estimation.covariance import VarianceEstimator
 from app.estimation.first_stage import instrument_regression
@@ -39,6 +43,14 @@ from app.estimation.linalg import solve_pd
 from app.estimation.moments import Moments
 from app.estimation.projected_meats import projected_meats
 from app.spec import CovarianceKind
+
+EXACT_FIT = 1e-10
+LEVERAGE_CHUNK_ROWS = 262_144
+EXACT_FIRST_STAGE = (
+    "the instruments predict the focal regressor exactly (its first-stage residuals are zero up to rounding), "
+    "so strength statistics are infinite rather than estimates and covariances that involve the first stage are "
+    "singular; the focal regressor is itself a combination of instruments and controls"
+)
 
 
 @dataclass(frozen=True)
@@ -66,6 +78,12 @@ class ReducedFormSystem:
         Denominator degrees of freedom of F tests (n - L, or G - 1 when clustered).
     kronecker
         True for the homoskedastic estimator, whose covariance is ``Omega (x) (Z~'Z~)^{-1}``.
+    exact_first_stage
+        True when the instruments predict a focal regressor exactly: its
+        first-stage residual sum of squares is at most :data:`EXACT_FIT` of its
+        variation left by W (the same share the design calls exact collinearity).
+        Strength statistics are then infinite rather than estimates, and
+        covariances involving the first stage are singular for that reason.
     """
 
     coefficients: np.ndarray
@@ -77,6 +95,7 @@ class ReducedFormSystem:
     n_obs: int
     inference_df: int
     kronecker: bool
+    exact_first_stage: bool = False
 
     @property
     def n_instruments(self) -> int:
@@ -113,6 +132,7 @@ def reduced_form_system(moments: Moments, variance: VarianceEstimator) -> Reduce
     residuals = np.column_stack([fit.residual for fit in fits])
     covariance = projected_meats(variance, to_excluded, residuals, n_params=n_params)
     residual_cross = residuals.T @ moments.gram @ residuals
+    given_exog = np.diag(partialled_cross(moments, layout.endog))
     return ReducedFormSystem(
         coefficients=np.column_stack([fit.params[:q] for fit in fits]),
         covariance=covariance,
@@ -123,6 +143,7 @@ def reduced_form_system(moments: Moments, variance: VarianceEstimator) -> Reduce
         n_obs=moments.n_obs,
         inference_df=variance.inference_df(n_params),
         kronecker=variance.kind is CovarianceKind.HOMOSKEDASTIC,
+        exact_first_stage=bool(np.any(np.diag(residual_cross)[1:] <= EXACT_FIT * given_exog)),
     )
 
 
@@ -151,3 +172,26 @@ def partialled_vector(moments: Moments, column: int) -> np.ndarray:
         coefficients = solve_pd(gram[np.ix_(layout.exog, layout.exog)], gram[layout.exog, column])
         vector[layout.exog] -= coefficients
     return vector
+
+
+def largest_instrument_leverage(moments: Moments, data: np.ndarray) -> tuple[float, int]:
+    """``(h_max, row)``: the largest leverage ``h_i = z~_i'(Z~'Z~)^{-1} z~_i`` of the partialled instruments.
+
+    One pass over the rows in chunks. A leverage near one means one row
+    alone determines an instrument's coefficient and its own residual is
+    fitted almost exactly, so heteroskedasticity- and cluster-robust
+    variances of the reduced-form and first-stage coefficients are biased
+    towards zero there (Chesher & Jewitt 1987; MacKinnon & White 1985).
+    """
+    layout = moments.layout
+    root = linalg.cholesky(partialled_instrument_gram(moments), lower=False)
+    whiten = linalg.solve_triangular(root, np.eye(layout.n_instr))
+    to_whitened = np.column_stack([partialled_vector(moments, column) for column in layout.instr]) @ whiten
+    best, where = 0.0, 0
+    for start in range(0, data.shape[0], LEVERAGE_CHUNK_ROWS):
+        scores = data[start : start + LEVERAGE_CHUNK_ROWS] @ to_whitened
+        leverage = np.einsum("ij,ij->i", scores, scores)
+        top = int(np.argmax(leverage))
+        if leverage[top] > best:
+            best, where = float(leverage[top]), start + top
+    return best, where

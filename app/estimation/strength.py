@@ -56,7 +56,7 @@ from app.estimation.inference import chi2_p, f_p
 from app.estimation.linalg import SingularMatrixError, inverse_pd, is_positive_definite, quadratic_form_inverse
 from app.estimation.moments import Moments
 from app.estimation.projected_meats import projected_meats
-from app.estimation.reduced_form_system import ReducedFormSystem, partialled_cross, partialled_vector
+from app.estimation.reduced_form_system import EXACT_FIRST_STAGE, ReducedFormSystem, partialled_cross, partialled_vector
 
 RANK_NULL = "the instruments do not identify the focal regressors (the first-stage coefficient matrix has reduced rank)"
 SOURCE_CD = "Cragg & Donald (1993); Stock & Yogo (2005)"
@@ -85,6 +85,8 @@ def cragg_donald_f(system: ReducedFormSystem) -> TestResult:
     sigma = system.residual_cross[1:, 1:] / (system.n_obs - system.n_params)
     pi = system.coefficients[:, 1:]
     signal = pi.T @ system.instrument_gram @ pi
+    if system.exact_first_stage:
+        return TestResult.undefined(name, EXACT_FIRST_STAGE, source=SOURCE_CD, null_hypothesis=RANK_NULL)
     if not is_positive_definite(sigma):
         return TestResult.undefined(
             name, "the first-stage residuals are collinear (the instruments predict a focal regressor exactly)", source=SOURCE_CD
@@ -106,6 +108,8 @@ def kleibergen_paap(moments: Moments, variance: VarianceEstimator, system: Reduc
     """rk Wald F and rk LM statistics with the claim's variance estimator."""
     q, p = system.n_instruments, system.n_endog
     names = {"kleibergen_paap_rk_f": "Kleibergen-Paap rk Wald F", "kleibergen_paap_rk_lm": "Kleibergen-Paap rk LM test"}
+    if system.exact_first_stage:
+        return {key: TestResult.undefined(label, EXACT_FIRST_STAGE, source=SOURCE_KP, null_hypothesis=RANK_NULL) for key, label in names.items()}
     pi = system.coefficients[:, 1:]
     try:
         root_z = linalg.cholesky(system.instrument_gram, lower=False)
