@@ -58,6 +58,12 @@ SINGULAR = (
     "the covariance of the reduced-form coefficients is singular (for example fewer clusters than instruments), "
     "so the Anderson-Rubin statistic is undefined"
 )
+DISTRIBUTION_NOTE = (
+    "referred to F(q, df), the exact distribution of Anderson and Rubin's statistic with normal homoskedastic "
+    "errors (and its usual small-sample form otherwise); the K and CLR tests use their chi-squared (asymptotic) "
+    "reference, so with few degrees of freedom the Anderson-Rubin set is somewhat wider even where the three "
+    "tests coincide (one instrument)"
+)
 CLOSED_FORM = "closed form: roots of a quadratic inequality in b"
 EIGENVALUE = (
     "exact: boundaries are the real eigenvalues of a quadratic eigenvalue problem, polished by Brent's method "
@@ -102,7 +108,7 @@ def anderson_rubin(system: ReducedFormSystem, *, level: float = CONFIDENCE_LEVEL
         distribution="F",
         null_hypothesis=NULL_ONE if p == 1 else NULL_JOINT,
         source=SOURCE,
-        details=details,
+        details={**details, "distribution_note": DISTRIBUTION_NOTE},
     )
 
 

@@ -53,6 +53,12 @@ DEFAULT_SHARES = (0.05, 0.10, 0.25, 0.50)
 MAX_INSTRUMENTS = 12
 
 
+NULL = (
+    "the focal regressor has no effect (beta = 0), allowing each instrument a direct effect on the outcome "
+    "anywhere in [-delta, delta]; rejected only if zero lies outside every 2SLS interval over that range"
+)
+
+
 def plausibly_exogenous(
     moments: Moments,
     variance: VarianceEstimator,
@@ -102,7 +108,7 @@ def plausibly_exogenous(
         p_value=None,
         df=None,
         distribution=None,
-        null_hypothesis="",
+        null_hypothesis=NULL,
         source=SOURCE,
         details={
             "by_regressor": entries,
