@@ -8,7 +8,9 @@ The instrumental-variables generator follows the textbook linear model
 
 so that OLS is biased when ``endogeneity != 0``, 2SLS is consistent when
 ``direct`` is zero, and an instrument with a non-zero ``direct`` entry is
-invalid.
+invalid. With ``years`` set, an uncentred control ``year`` (whole calendar
+years in that range) shifts both equations, as a survey wave or fiscal year
+would.
 """
 
 from __future__ import annotations
@@ -32,6 +34,7 @@ class IvDesign:
     n_clusters: int | None = None
     cluster_effect: float = 0.0
     heteroskedastic: bool = False
+    years: tuple[int, int] | None = None
 
 
 def iv_sample(design: IvDesign, rng: np.random.Generator) -> pd.DataFrame:
@@ -56,6 +59,13 @@ def iv_sample(design: IvDesign, rng: np.random.Generator) -> pd.DataFrame:
     outcome = 1.0 + design.effect * focal + controls @ np.linspace(0.5, -0.5, design.n_controls) + structural
     if design.direct is not None:
         outcome = outcome + instruments @ np.asarray(design.direct)
+    if design.years is not None:
+        first, last = design.years
+        year = rng.integers(first, last + 1, n).astype(float)
+        trend = 0.1 * (year - first)
+        focal = focal + trend
+        outcome = outcome + design.effect * trend + 0.5 * trend
+        columns["year"] = year
     columns = {
         "outcome": outcome,
         "focal": focal,
@@ -72,7 +82,7 @@ def iv_claim(design: IvDesign, /, **fields: object) -> dict[str, object]:
         "outcome": "outcome",
         "endogenous": ["focal"],
         "instruments": [f"z{j + 1}" for j in range(len(design.first_stage))],
-        "controls": [f"w{j + 1}" for j in range(design.n_controls)],
+        "controls": [f"w{j + 1}" for j in range(design.n_controls)] + (["year"] if design.years else []),
         "covariance": "robust",
     }
     claim.update(fields)

@@ -164,3 +164,26 @@ def test_near_collinearity_is_a_warning_naming_the_columns(frame: pd.DataFrame) 
     frame["w2"] = frame["w1"] + 1e-4 * np.random.default_rng(2).standard_normal(len(frame))
     design = build(frame)
     assert any("'w2' is nearly collinear with w1" in warning for warning in design.sample.warnings)
+
+
+def test_control_far_from_zero_that_varies_is_not_constant(frame: pd.DataFrame) -> None:
+    """Spread 1 around 1e6 is 1e-12 of the magnitude: real variation at double precision, not a constant."""
+    amount = 1e6 + np.random.default_rng(6).standard_normal(len(frame))
+    design = build(frame.assign(amount=amount), controls=["w1", "amount"])
+    assert "amount" in design.exogenous
+    assert any("'amount' varies little relative to its size" in warning for warning in design.sample.warnings)
+    with pytest.raises(DesignError, match="control 'level' is constant"):
+        build(frame.assign(level=1e6 + 0.1), controls=["w1", "level"])
+
+
+def test_calendar_year_control_draws_no_precision_warning(frame: pd.DataFrame) -> None:
+    design = build(frame.assign(year=2016.0 + np.arange(len(frame)) % 2), controls=["w1", "year"])
+    assert not [warning for warning in design.sample.warnings if "varies little" in warning]
+
+
+def test_firm_effects_nested_in_firm_clusters_are_reported(frame: pd.DataFrame) -> None:
+    nested = build(frame, fixed_effects=["site"], covariance="cluster", cluster=["site"])
+    crossed = build(frame, fixed_effects=["region"], covariance="cluster", cluster=["site"])
+    assert nested.nested_dof == nested.absorbed_dof == 40
+    assert nested.absorbed.to_dict()["dof_nested_in_clusters"] == 40
+    assert crossed.nested_dof == 0
