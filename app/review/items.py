@@ -7,6 +7,7 @@ stored findings at any time and serialised without loss.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from datetime import UTC, datetime
 from typing import Any
 
 STANDINGS = ("sound", "concern", "serious", "reviewer_judgement", "not_applicable")
@@ -35,7 +36,11 @@ STANDING_LABELS = {
 
 @dataclass(frozen=True)
 class Judgement:
-    """The reviewer's own reading of one item.
+    """The reviewer's own reading of one item, with who saved it last and when, where known.
+
+    ``author`` and ``saved_at`` are None for a judgement not yet saved, or
+    saved before authors were kept; a ``saved_at`` without a time zone is
+    read as UTC.
 
     Raises
     ------
@@ -45,6 +50,8 @@ class Judgement:
 
     standing: str | None
     note: str = ""
+    author: str | None = None
+    saved_at: datetime | None = None
 
     def __post_init__(self) -> None:
         if self.standing is not None and self.standing not in REVIEWER_JUDGEMENTS:
@@ -52,7 +59,14 @@ class Judgement:
             raise ValueError(f"a reviewer's judgement must be one of {allowed}, not {self.standing!r}")
 
     def to_dict(self) -> dict[str, Any]:
-        return {"standing": self.standing, "note": self.note}
+        """Standing, note, author and the save time in ISO 8601 (UTC), or None for what is not known."""
+        saved_at = in_utc(self.saved_at).isoformat() if self.saved_at is not None else None
+        return {"standing": self.standing, "note": self.note, "author": self.author, "saved_at": saved_at}
+
+
+def in_utc(moment: datetime) -> datetime:
+    """``moment`` in UTC; a time without a time zone is taken to be UTC already (as the store keeps times)."""
+    return moment.replace(tzinfo=UTC) if moment.tzinfo is None else moment.astimezone(UTC)
 
 
 @dataclass(frozen=True)

@@ -13,6 +13,7 @@ so two people typing on one item never overwrite each other silently.
 
 from __future__ import annotations
 
+import dataclasses
 from collections.abc import Mapping
 from dataclasses import dataclass
 from datetime import UTC, datetime, timedelta
@@ -235,7 +236,7 @@ def save_judgement(
             stored.updated_at = now
             stored.author = ctx.actor.name[:100]
             stored.author_user_id = ctx.actor.user_id
-            judgements[item_id] = judgement
+            judgements[item_id] = dataclasses.replace(judgement, author=stored.author or None, saved_at=now)
         checklist = checklist_of(row, judgements=judgements)
         store_summary(row, summarise(checklist))
         record_event(
@@ -269,7 +270,10 @@ def _changed_meanwhile(stored: JudgementRow | None) -> str:
 
 
 def export_report(ctx: ServiceContext, *, case_id: int, refit_id: int, format_name: str) -> ExportedReport:
-    """Render the checklist and findings in one of :data:`app.review.reports.REPORT_FORMATS`."""
+    """Render the checklist and findings in one of :data:`app.review.reports.REPORT_FORMATS`.
+
+    Each reviewer's note is exported with the name of whoever saved it last and when (see :func:`judgements_of`).
+    """
     report_format = REPORT_FORMATS.get(format_name)
     if report_format is None:
         raise NotFound(f"no report format '{format_name}'; choose one of {', '.join(REPORT_FORMATS)}")
@@ -303,10 +307,14 @@ def item_data(item: ChecklistItem, *, saved: JudgementRow | None = None) -> dict
 
     ``saved_by`` and ``saved_at`` name the author and time of the stored
     judgement (None without one); ``saved_at`` is also the version a form sends
-    back when it saves (see :class:`LoadedVersion`).
+    back when it saves (see :class:`LoadedVersion`). The judgement itself is
+    given as standing and note only, so that a view names its author only
+    when the caller passes the stored row (a session link's view names nobody).
     """
+    judgement = item.judgement
     return {
         **item.to_dict(),
+        "judgement": {"standing": judgement.standing, "note": judgement.note} if judgement is not None else None,
         "effective_standing": item.effective_standing,
         "saved_by": (saved.author or None) if saved is not None else None,
         "saved_at": saved.updated_at if saved is not None else None,
@@ -339,8 +347,16 @@ def _finished_refit(
 
 
 def judgements_of(row: Refit) -> dict[str, Judgement]:
-    """The reviewer's stored judgements on a refit, by item id."""
-    return {stored.item_id: Judgement(standing=stored.standing, note=stored.note) for stored in row.judgements}
+    """The reviewer's stored judgements on a refit, by item id, each with who saved it last and when.
+
+    An empty author (a judgement saved before authors were kept) becomes None.
+    """
+    return {
+        stored.item_id: Judgement(
+            standing=stored.standing, note=stored.note, author=stored.author or None, saved_at=stored.updated_at
+        )
+        for stored in row.judgements
+    }
 
 
 def _extension(extension: str) -> str:

@@ -84,4 +84,4 @@ def test_json_form_names_the_fields_of_the_interface():
     assert {"id", "section", "item", "standing", "evidence", "rule", "source", "explanation", "question", "judgement"} <= set(entry)
     assert {"code", "label", "summary", "drivers"} == set(document["verdict"])
     judged = next(e for e in document["checklist"] if e["id"] == "exclusion.argument")
-    assert judged["judgement"] == {"standing": "sound", "note": "ok"}
+    assert judged["judgement"] == {"standing": "sound", "note": "ok", "author": None, "saved_at": None}

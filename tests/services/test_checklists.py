@@ -2,14 +2,20 @@
 
 from __future__ import annotations
 
+import json
+from datetime import UTC, datetime
+
 import pytest
 
+from app.auth.actors import Actor
+from app.auth.roles import Role
 from app.review.checklist import build_checklist
 from app.review.reports import REPORT_FORMATS
 from app.services import cases, checklists, refits
 from app.services.context import ServiceContext
 from app.services.errors import InvalidInput, NotFound
 from app.store.models import Refit
+from tests.accounts import add_account
 from tests.services.conftest import Reviewed
 
 
@@ -110,6 +116,29 @@ def test_the_markdown_report_carries_the_reviewers_note(ctx: ServiceContext, rev
     assert report.media_type.startswith("text/markdown")
     assert "Ask for the do-file." in report.content
     assert "walking.csv" in report.content
+
+
+def test_exported_notes_name_their_author_and_save_time(ctx: ServiceContext, reviewed: Reviewed) -> None:
+    name = "ana <b>kim</b>"
+    user_id = add_account(ctx, "ana", "coordinator")
+    ana = ctx.acting_as(Actor(name=name, kind="user", role=Role.COORDINATOR, user_id=user_id, via="web session"))
+    item_id = checklists.get_checklist(ctx, case_id=reviewed.case_id, refit_id=reviewed.refit_id).sections[0].items[0]["id"]
+    saved = checklists.save_judgement(
+        ana, case_id=reviewed.case_id, refit_id=reviewed.refit_id, item_id=item_id, standing="concern", note="Ask for the do-file."
+    )
+    minute = saved.saved_at.astimezone(UTC).strftime("%Y-%m-%d %H:%M UTC")
+
+    def export(format_name: str) -> str:
+        return checklists.export_report(ctx, case_id=reviewed.case_id, refit_id=reviewed.refit_id, format_name=format_name).content
+
+    document = json.loads(export("json"))
+    judgement = next(item["judgement"] for item in document["checklist"] if item["id"] == item_id)
+    assert judgement["author"] == name
+    assert datetime.fromisoformat(judgement["saved_at"]) == saved.saved_at
+    assert f"Reviewer's note ({name}, {minute}): Ask for the do-file." in " ".join(export("text").split())
+    assert f"Reviewer's note (ana &lt;b&gt;kim&lt;/b&gt;, {minute}): Ask for the do-file." in export("html").replace("&#x27;", "'")
+    assert saved.item["judgement"] == {"standing": "concern", "note": "Ask for the do-file."}, "the view names the author once, in saved_by"
+    assert saved.item["saved_by"] == name
 
 
 def test_an_unknown_report_format_is_not_found(ctx: ServiceContext, reviewed: Reviewed) -> None:

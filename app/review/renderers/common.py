@@ -11,7 +11,7 @@ from dataclasses import dataclass
 
 from app.review.checklist import Checklist, ChecklistItem
 from app.review.formatting import as_number, confidence_set, count, interval, number, p_value, statistic
-from app.review.items import STANDING_LABELS
+from app.review.items import STANDING_LABELS, Judgement, in_utc
 from app.review.rules.omitted_causes import analysed_fit
 from app.review.rules.overidentification import joint_test
 from app.review.view import FindingsView
@@ -231,6 +231,19 @@ def open_items(checklist: Checklist) -> list[ChecklistItem]:
 def awaiting_judgement(checklist: Checklist) -> list[ChecklistItem]:
     """Items left to the reviewer that have no judgement yet."""
     return [item for item in checklist.items if item.effective_standing == "reviewer_judgement"]
+
+
+def note_heading(judgement: Judgement) -> str:
+    """"Reviewer's note" with who saved it and when, as far as known.
+
+    E.g. "Reviewer's note (Dana Reyes, 2026-12-02 14:05 UTC)"; the time is
+    given in UTC to the minute. The name is user text: each renderer escapes
+    the heading exactly as it escapes the note.
+    """
+    signature = [" ".join(judgement.author.split())] if judgement.author else []
+    if judgement.saved_at is not None:
+        signature.append(in_utc(judgement.saved_at).strftime("%Y-%m-%d %H:%M UTC"))
+    return f"Reviewer's note ({', '.join(signature)})" if signature else "Reviewer's note"
 
 
 def standing_words(item: ChecklistItem) -> str:

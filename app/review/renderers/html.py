@@ -24,6 +24,7 @@ from app.review.renderers.common import (
     interval_text,
     key_diagnostics,
     model_lines,
+    note_heading,
     open_items,
     sample_lines,
     standing_words,
@@ -149,7 +150,7 @@ def _item_block(item: ChecklistItem, *, heading: str = "h3") -> str:
     if item.question and item.effective_standing != "sound":
         parts.append(tag("p", text(f"Question to the authors: {item.question}"), class_="question"))
     if item.judgement and item.judgement.note:
-        parts.append(tag("p", text(f"Reviewer's note: {item.judgement.note}")))
+        parts.append(tag("p", text(f"{note_heading(item.judgement)}: {item.judgement.note}")))
     parts.append(tag("p", text(f"Rule: {item.rule} Source: {item.source}."), class_="meta"))
     parts.append(tag("p", text(item.explanation), class_="meta"))
     return tag("div", parts, class_=f"item {item.effective_standing}", id=item.id)
@@ -174,7 +175,7 @@ def _reading(item: ChecklistItem) -> str:
     """The standing, and the reviewer's note when there is one."""
     reading = text(standing_words(item))
     if item.judgement and item.judgement.note:
-        reading += tag("p", text(f"Reviewer's note: {item.judgement.note}"), class_="meta")
+        reading += tag("p", text(f"{note_heading(item.judgement)}: {item.judgement.note}"), class_="meta")
     return reading
 
 

@@ -25,6 +25,7 @@ from app.review.renderers.common import (
     interval_text,
     key_diagnostics,
     model_lines,
+    note_heading,
     open_items,
     sample_lines,
     standing_words,
@@ -86,7 +87,9 @@ def render_markdown(findings: Mapping[str, Any], checklist: Checklist, *, data_f
     lines += ["## Full checklist", "", "| Section | Item | Reading | Evidence |", "| --- | --- | --- | --- |"]
     titles = {section: title for section, title, _ in checklist.sections()}
     for item in checklist.items:
-        reading = standing_words(item) + (f". Reviewer's note: {item.judgement.note}" if item.judgement and item.judgement.note else "")
+        reading = standing_words(item)
+        if item.judgement and item.judgement.note:
+            reading += f". {note_heading(item.judgement)}: {item.judgement.note}"
         lines.append(f"| {cell(titles[item.section])} | {cell(item.item)} | {cell(reading)} | {cell(item.evidence)} |")
     lines += ["", "---", "", *(f"*{inline(sentence)}*" for sentence in CAUTION), ""]
     lines.append(f"*Prepared with {PRODUCT}; every number above can be recomputed with its reproduction script.*")
@@ -141,7 +144,7 @@ def _points_to_raise(checklist: Checklist) -> list[str]:
         if item.question:
             out += [f"**Question to the authors.** {inline(item.question)}", ""]
         if item.judgement and item.judgement.note:
-            out += [f"**Reviewer's note.** {inline(item.judgement.note)}", ""]
+            out += [f"**{inline(note_heading(item.judgement))}.** {inline(item.judgement.note)}", ""]
         out += [f"*Rule: {inline(item.rule)} Source: {inline(item.source)}.*", ""]
     return out
 

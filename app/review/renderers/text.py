@@ -24,6 +24,7 @@ from app.review.renderers.common import (
     interval_text,
     key_diagnostics,
     model_lines,
+    note_heading,
     sample_lines,
     standing_words,
 )
@@ -111,7 +112,7 @@ def _item(item: ChecklistItem) -> list[str]:
     if item.question and item.effective_standing not in ("sound", "not_applicable"):
         out += wrap(f"Ask: {item.question}", indent=INDENT, hanging=INDENT + "     ")
     if item.judgement and item.judgement.note:
-        out += wrap(f"Reviewer's note: {item.judgement.note}", indent=INDENT)
+        out += wrap(f"{note_heading(item.judgement)}: {item.judgement.note}", indent=INDENT)
     if item.effective_standing != "not_applicable":
         out += wrap(f"Rule: {item.rule} ({item.source})", indent=INDENT)
     return out
