@@ -3,15 +3,17 @@
 The script is written, run in a subprocess on a data file, and its
 ``key = value`` lines are compared with the engine's findings for the same
 file; where the script also prints the review's own value beside a number
-(the panel tests), that value must be the findings' value exactly. The demo case comes from seed_demo (built into a temporary folder by
-its own generator); the invented cases exercise the sample rules the script
-must mirror: text and numeric filters in order (missing values fail them),
+(the panel tests), that value must be the findings' value exactly. The demo
+case comes from seed_demo (built into a temporary folder by its own
+generator); the invented cases exercise the sample rules the script must
+mirror: text and numeric filters in order (missing values fail them),
 listwise deletion, categorical indicators, analytic weights, one- and
-two-way fixed effects, one- and two-way clustering, classical errors; the
+two-way fixed effects, one- and two-way clustering, classical errors. The
 panel cases add the Mundlak test (clustered by the claim's clusters when they
-contain the units, by unit otherwise) and the classical Hausman test.
-Reference: linearmodels (IV2SLS, IVLIML, IVGMM, RandomEffects) and scipy's
-F and chi-squared tails inside the script; the
+contain the units, by unit otherwise) and the classical Hausman test; the
+demo panel's Hausman difference is not positive definite, so its positive
+part is checked too. Reference: linearmodels (IV2SLS, IVLIML, IVGMM,
+RandomEffects) and scipy's F and chi-squared tails inside the script; the
 engine's agreement with linearmodels is checked in tests/estimation.
 """
 
