@@ -129,3 +129,12 @@ def test_html_prints_a_name_with_markup_characters_as_text():
     assert notes == [f"Reviewer's note ({HOSTILE_NAME}, 2026-12-02 14:05 UTC): {NOTE}"] * 2
     assert not list(tree.iter("b"))
     assert "Ana &lt;b&gt;Kim&lt;/b&gt;" in text
+
+
+def test_a_note_on_several_lines_starts_no_markdown_block():
+    note = "First point.\n# Heading-shaped line\n- list-shaped line\n\n    code-shaped line"
+    tree = markdown_tree(render("markdown", Judgement("concern", note, author="Dana Reyes", saved_at=SAVED_AT)))
+    blocks = [element for tag in ("h1", "h2", "h3", "li", "pre") for element in tree.iter(tag)]
+    assert not [element.tag for element in blocks if "-shaped line" in "".join(element.itertext())]
+    paragraphs = ["".join(p.itertext()) for p in tree.iter("p") if "".join(p.itertext()).startswith("Reviewer's note")]
+    assert paragraphs == ["Reviewer's note (Dana Reyes, 2026-12-02 14:05 UTC). First point. # Heading-shaped line - list-shaped line code-shaped line"]

@@ -144,7 +144,9 @@ def _points_to_raise(checklist: Checklist) -> list[str]:
         if item.question:
             out += [f"**Question to the authors.** {inline(item.question)}", ""]
         if item.judgement and item.judgement.note:
-            out += [f"**{inline(note_heading(item.judgement))}.** {inline(item.judgement.note)}", ""]
+            # On one line, as in the table: a typed line break must not start a heading or a list.
+            note = " ".join(item.judgement.note.split())
+            out += [f"**{inline(note_heading(item.judgement))}.** {inline(note)}", ""]
         out += [f"*Rule: {inline(item.rule)} Source: {inline(item.source)}.*", ""]
     return out
 
