@@ -10,7 +10,7 @@ from __future__ import annotations
 import pytest
 
 from app.review.checklist import build_checklist
-from tests.review.findings_builder import iv_findings, result, row, with_claim, with_diagnostic, with_rows
+from tests.review.findings_builder import iv_findings, result, row, with_claim, with_covariance, with_diagnostic, with_rows
 
 MEDIATOR = "design.mediator"
 PANEL = "design.panel_effects"
@@ -183,3 +183,12 @@ def test_design_questions_flag_rather_than_assert(item, findings, item_id):
     question = item(findings(), item_id).question
     assert "The test suggests" in question or "The Mundlak test suggests" in question
     assert "are correlated with the regressors, so" not in question and "is significant, so" not in question
+
+
+def test_the_mundlak_evidence_names_its_own_clustered_errors_not_the_claims(item):
+    findings = with_covariance(panel("random_effects", 0.01), "homoskedastic")
+    findings["diagnostics"]["mundlak"]["clusters"] = "units (store_id)"
+    evidence = item(findings, PANEL).evidence
+    assert "unrelated to the regressors (cluster-robust by units (store_id)):" in evidence
+    findings["diagnostics"]["mundlak"].pop("clusters")
+    assert "unrelated to the regressors (cluster-robust):" in item(findings, PANEL).evidence

@@ -32,6 +32,7 @@ Economic Surveys 14(1), 53-68.
 from __future__ import annotations
 
 from collections.abc import Mapping
+from typing import Any
 
 from app.review.formatting import as_number, interval, number, p_value, statistic
 from app.review.rules.base import SIGNIFICANCE, Outcome, Rule, not_applicable, significant, unavailable
@@ -131,7 +132,7 @@ def assess_panel_effects(view: FindingsView) -> Outcome:
     test = found.value
     p = as_number(test.get("p_value"))
     parts = [
-        f"Mundlak test that the unit effects are unrelated to the regressors ({view.variance_label}): "
+        f"Mundlak test that the unit effects are unrelated to the regressors ({_mundlak_errors(test)}): "
         f"{statistic(test.get('statistic'), distribution=test.get('distribution'), df=test.get('df'))}, {p_value(p)}."
     ]
     parts += _hausman_evidence(view)
@@ -152,6 +153,12 @@ def assess_panel_effects(view: FindingsView) -> Outcome:
             ),
         )
     return Outcome("sound", evidence)
+
+
+def _mundlak_errors(test: Mapping[str, Any]) -> str:
+    """The Mundlak test's own standard errors: always cluster-robust, whatever the claim's (app/estimation/panel.py)."""
+    clusters = test.get("clusters")
+    return f"cluster-robust by {clusters}" if isinstance(clusters, str) and clusters else "cluster-robust"
 
 
 def _hausman_evidence(view: FindingsView) -> list[str]:
