@@ -140,7 +140,13 @@ def refit_instrumental(frame: pd.DataFrame, spec: ClaimSpec, provenance: dict[st
 def design_moments(design: DesignMatrices) -> Moments:
     """Moments of a built design."""
     layout = Layout(n_endog=len(design.endogenous), n_instr=len(design.instruments), n_exog=len(design.exogenous))
-    return Moments(gram=design.gram, n_obs=design.n_obs, layout=layout, absorbed_dof=design.absorbed_dof)
+    return Moments(
+        gram=design.gram,
+        n_obs=design.n_obs,
+        layout=layout,
+        absorbed_dof=design.absorbed_dof,
+        nested_dof=design.nested_dof,
+    )
 
 
 def arms_as_controls(moments: Moments) -> Moments:

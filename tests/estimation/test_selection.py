@@ -245,7 +245,10 @@ def test_control_function_with_clustered_errors_sums_corrected_scores_by_cluster
     frame = choice.assign(site=np.arange(len(choice)) % 40)
     clustered = rows_by(refit(frame, parse_claim(choice_claim(covariance="cluster", cluster=["site"]))).to_dict())
     robust = rows_by(refit(frame, parse_claim(choice_claim())).to_dict())
-    assert clustered[("control_function", "treated")]["estimate"] == robust[("control_function", "treated")]["estimate"]
+    # The same point estimate; rows are ordered by cluster, so the sums may differ in the last digits.
+    assert clustered[("control_function", "treated")]["estimate"] == pytest.approx(
+        robust[("control_function", "treated")]["estimate"], rel=1e-12
+    )
     assert clustered[("control_function", "treated")]["df"] == 39
     assert clustered[("control_function", "treated")]["std_error"] != pytest.approx(robust[("control_function", "treated")]["std_error"], rel=1e-3)
 
