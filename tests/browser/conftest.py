@@ -19,6 +19,7 @@ import socket
 import subprocess
 import sys
 import time
+import tomllib
 import urllib.request
 from collections.abc import Iterator
 from dataclasses import dataclass
@@ -42,6 +43,7 @@ CHROMIUM_ARGS = [
 ]
 ARTIFACTS = Path(__file__).resolve().parents[1] / "artifacts" / "browser"
 REPOSITORY = Path(__file__).resolve().parents[2]
+DEMO_DIR = REPOSITORY / "seed_demo" / "cases" / "walking_blood_pressure"
 
 pytestmark = pytest.mark.browser
 
@@ -167,3 +169,27 @@ def shots(request: pytest.FixtureRequest) -> object:
         return path
 
     return take
+
+
+def refit_walking_demo(request: Any, base: str, headers: dict[str, str], title: str) -> tuple[int, int]:
+    """A case with the walking demo uploaded, its claim entered and refitted through the API; (case, refit).
+
+    ``request`` is a Playwright API request context; ``headers`` authenticate
+    it (a bearer token, or the session's form token).
+    """
+    case = request.post(f"{base}/api/v1/cases", data={"title": title}, headers=headers).json()["case"]["id"]
+    upload = request.post(
+        f"{base}/api/v1/cases/{case}/datasets",
+        multipart={"file": {"name": "walking.csv", "mimeType": "text/csv", "buffer": (DEMO_DIR / "data.csv").read_bytes()}},
+        headers=headers,
+    )
+    dataset = upload.json()["dataset"]["id"]
+    spec = tomllib.loads((DEMO_DIR / "claim.toml").read_text(encoding="utf-8"))
+    claim = request.post(
+        f"{base}/api/v1/cases/{case}/claims", data={"dataset_id": dataset, "spec": spec}, headers=headers
+    ).json()["claim"]["id"]
+    refit = request.post(
+        f"{base}/api/v1/cases/{case}/refits", data={"claim_id": claim, "dataset_id": dataset}, headers=headers
+    ).json()
+    assert refit["state"] == "finished", refit
+    return case, refit["id"]

@@ -9,40 +9,21 @@ the note keeps every word typed.
 
 from __future__ import annotations
 
-import tomllib
-from pathlib import Path
 from typing import Any
 
 import pytest
 
-from tests.browser.conftest import ARTIFACTS, Server
+from tests.browser.conftest import ARTIFACTS, Server, refit_walking_demo
 
 pytestmark = pytest.mark.browser
-
-DEMO_DIR = Path(__file__).resolve().parents[2] / "seed_demo" / "cases" / "walking_blood_pressure"
 
 
 def reviewed_case(page: Any, base: str) -> tuple[int, int, str]:
     """A case with the walking demo refitted, made through the API with the page's session and form token."""
     page.goto(base + "/account")
     headers = {"X-CSRF-Token": page.locator('input[name="csrf_token"]').first.input_value()}
-    request = page.context.request
-    case = request.post(f"{base}/api/v1/cases", data={"title": "Refused saves"}, headers=headers).json()["case"]["id"]
-    upload = request.post(
-        f"{base}/api/v1/cases/{case}/datasets",
-        multipart={"file": {"name": "walking.csv", "mimeType": "text/csv", "buffer": (DEMO_DIR / "data.csv").read_bytes()}},
-        headers=headers,
-    )
-    dataset = upload.json()["dataset"]["id"]
-    spec = tomllib.loads((DEMO_DIR / "claim.toml").read_text(encoding="utf-8"))
-    claim = request.post(
-        f"{base}/api/v1/cases/{case}/claims", data={"dataset_id": dataset, "spec": spec}, headers=headers
-    ).json()["claim"]["id"]
-    refit = request.post(
-        f"{base}/api/v1/cases/{case}/refits", data={"claim_id": claim, "dataset_id": dataset}, headers=headers
-    ).json()
-    assert refit["state"] == "finished", refit
-    return case, refit["id"], headers["X-CSRF-Token"]
+    case, refit = refit_walking_demo(page.context.request, base, headers, "Refused saves")
+    return case, refit, headers["X-CSRF-Token"]
 
 
 def test_a_refused_save_is_shown_beside_the_item_and_the_note_is_kept(

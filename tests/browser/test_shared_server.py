@@ -11,18 +11,15 @@ checklist and the presentation, with nothing to edit or download.
 from __future__ import annotations
 
 import re
-import tomllib
-from pathlib import Path
 from typing import Any
 
 import pytest
 
 from tests.accounts import PASSWORD
-from tests.browser.conftest import Server, sign_in
+from tests.browser.conftest import Server, refit_walking_demo, sign_in
 
 pytestmark = pytest.mark.browser
 
-DEMO_DIR = Path(__file__).resolve().parents[2] / "seed_demo" / "cases" / "walking_blood_pressure"
 NOTE = "The lottery instrument looks clean; ask how the walkability index was built."
 
 
@@ -45,24 +42,8 @@ def api_token(page: Any) -> str:
 
 
 def reviewed_case(request: Any, base: str, token: str, title: str) -> int:
-    """A case with the walking demo uploaded, its claim entered and refitted, through the API."""
-    headers = {"Authorization": f"Bearer {token}"}
-    case = request.post(f"{base}/api/v1/cases", data={"title": title}, headers=headers).json()["case"]["id"]
-    upload = request.post(
-        f"{base}/api/v1/cases/{case}/datasets",
-        multipart={"file": {"name": "walking.csv", "mimeType": "text/csv", "buffer": (DEMO_DIR / "data.csv").read_bytes()}},
-        headers=headers,
-    )
-    dataset = upload.json()["dataset"]["id"]
-    spec = tomllib.loads((DEMO_DIR / "claim.toml").read_text(encoding="utf-8"))
-    claim = request.post(
-        f"{base}/api/v1/cases/{case}/claims", data={"dataset_id": dataset, "spec": spec}, headers=headers
-    ).json()["claim"]["id"]
-    refit = request.post(
-        f"{base}/api/v1/cases/{case}/refits", data={"claim_id": claim, "dataset_id": dataset}, headers=headers
-    ).json()
-    assert refit["state"] == "finished", refit
-    return case
+    """A case with the walking demo uploaded, its claim entered and refitted, through the API with a token."""
+    return refit_walking_demo(request, base, {"Authorization": f"Bearer {token}"}, title)[0]
 
 
 def test_an_editor_assigns_a_referee_who_sees_only_that_case_and_a_club_follows_read_only(
