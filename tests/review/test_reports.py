@@ -18,6 +18,7 @@ from markdown_it import MarkdownIt
 
 from app.review.checklist import Judgement, build_checklist
 from app.review.renderers.common import CAUTION
+from app.review.renderers.markdown import inline
 from app.review.reports import REPORT_FORMATS
 from tests.review.findings_builder import iv_findings, result, row, with_claim, with_covariance, with_diagnostic, with_rows
 
@@ -77,6 +78,13 @@ def test_markdown_keeps_claim_text_from_becoming_markup():
     assert "<script>" not in html
     assert "<em>bold</em>" not in html
     assert 'href="http://example.org"' not in html
+
+
+@pytest.mark.parametrize("text", ["1. First point", "12) twelve", "# heading", "- dash", "> quote", "== rule"])
+def test_markdown_text_that_would_start_a_block_renders_as_the_same_words(text):
+    # Reference: a CommonMark parser renders the escaped text as one paragraph holding the words unchanged.
+    html = MarkdownIt("commonmark").render(inline(text))
+    assert html == f"<p>{text.replace('>', '&gt;')}</p>\n"
 
 
 def parse_html(text: str) -> ET.Element:

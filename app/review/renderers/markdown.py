@@ -34,7 +34,8 @@ from app.review.view import FindingsView
 
 _EMPHASIS_UNDERSCORE = re.compile(r"(?<![0-9A-Za-z])_|_(?![0-9A-Za-z])")
 _TAG_START = re.compile(r"<(?=[A-Za-z/!?])")
-_BLOCK_START = re.compile(r"^(?=[#+-](?:\s|$)|>|=+\s*$|\d+[.)](?:\s|$))")
+_BLOCK_START = re.compile(r"^(?=[#+-](?:\s|$)|>|=+\s*$)")
+_ORDERED_START = re.compile(r"^(\d+)(?=[.)](?:\s|$))")
 
 
 def inline(text: object) -> str:
@@ -47,6 +48,7 @@ def inline(text: object) -> str:
     escaped = str(text).replace("\\", "\\\\").replace("`", "\\`").replace("*", "\\*").replace("](", "\\](")
     escaped = _EMPHASIS_UNDERSCORE.sub(r"\\_", escaped)
     escaped = _TAG_START.sub(r"\\<", escaped)
+    escaped = _ORDERED_START.sub(r"\1\\", escaped)  # "1. " becomes "1\. ": a backslash before a digit would show
     return _BLOCK_START.sub("\\\\", escaped)
 
 
