@@ -6,6 +6,7 @@ claim spec and the review package.
 
 from __future__ import annotations
 
+import re
 from collections.abc import Iterable
 
 from app.services.errors import Problem
@@ -432,10 +433,23 @@ def _claim_list_item(item: object) -> str:
     return str(item)
 
 
+PERSON_FIELDS = {"password": "New password", "confirm": "Confirm the removal"}
+"""Fields of the forms beside each person on the people page; their control id is ``<field>-<user id>``."""
+
+_PERSON_CONTROL = re.compile(r"(password|confirm)-(\d+)")
+
+
+def person_field(field: str, user_id: int) -> str:
+    """The problem field of a form beside one person on the people page: its control id."""
+    return f"{field}-{user_id}"
+
+
 def problem_field(field: str | None) -> tuple[str, str] | None:
-    """The label and control id of a problem's field, from the claim form or the account forms."""
+    """The label and control id of a problem's field, from the claim form, the account forms or the people page."""
     if field is None:
         return None
+    if person := _PERSON_CONTROL.fullmatch(field):
+        return PERSON_FIELDS[person.group(1)], field
     return CLAIM_FIELDS.get(field) or ACCOUNT_FIELDS.get(field)
 
 

@@ -29,6 +29,7 @@ from app.web.identity import (
     safe_next,
     services,
 )
+from app.web.labels import person_field
 from app.web.params import RowId
 from app.web.rendering import render, see_other
 
@@ -298,7 +299,9 @@ def person_password_form(
     try:
         changed = users.reset_password(ctx, user_id=user_id, password=password)
     except InvalidInput as error:
-        return _people(request, ctx, values={}, problems=error.problems, status_code=422)
+        field = person_field("password", user_id)
+        problems = [Problem(field=field, message=problem.message.removeprefix("password: ")) for problem in error.problems]
+        return _people(request, ctx, values={}, problems=problems, status_code=422)
     return _people_done(request, "password", anchor=f"person-{changed.id}")
 
 
@@ -307,7 +310,9 @@ def remove_person_form(
     request: Request, ctx: Services, user_id: RowId, confirm: Annotated[str, Form()] = ""
 ) -> Response:
     if confirm != "yes":
-        problems = [Problem(field="confirm", message="tick the box to confirm that the account is to be removed")]
+        problems = [
+            Problem(field=person_field("confirm", user_id), message="tick the box to confirm that the account is to be removed")
+        ]
         return _people(request, ctx, values={}, problems=problems, status_code=422)
     users.remove_user(ctx, user_id=user_id)
     return _people_done(request, "removed", anchor="people")

@@ -87,3 +87,25 @@ def test_the_people_form_lists_a_taken_name_with_the_other_problems(client: Test
     assert "Name to sign in with: there is already an account named &#39;ines&#39;" in answer.text
     assert '<a href="#password">Password: ' in answer.text
     assert 'aria-invalid="true" aria-describedby="problem-name"' in answer.text
+
+
+def test_a_refused_password_reset_points_at_that_persons_field_not_the_add_form(client: TestClient) -> None:
+    ines = add_account(client.app.state.services, "ines", "referee")  # type: ignore[attr-defined]
+
+    answer = client.post(f"/people/{ines}/password", data={"password": "short"})
+
+    assert answer.status_code == 422
+    assert f'<a href="#password-{ines}">New password: ' in answer.text
+    assert f'aria-invalid="true" aria-describedby="problem-password-{ines}"' in answer.text
+    assert 'id="password" name="password" type="password" autocomplete="new-password" minlength="10" maxlength="1024" required aria-describedby="password-hint"' in answer.text
+    assert "<details open>" in answer.text, "the person's collapsed forms open on the problem"
+
+
+def test_a_removal_without_the_tick_points_at_that_persons_box(client: TestClient) -> None:
+    ines = add_account(client.app.state.services, "ines", "referee")  # type: ignore[attr-defined]
+
+    answer = client.post(f"/people/{ines}/remove", data={})
+
+    assert answer.status_code == 422
+    assert f'<a href="#confirm-{ines}">Confirm the removal: tick the box' in answer.text
+    assert f'aria-describedby="problem-confirm-{ines}"' in answer.text
