@@ -6,6 +6,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from app.errors import DesignError
+
 
 @dataclass(frozen=True)
 class LinearFit:
@@ -40,3 +42,31 @@ class LinearFit:
     residual: np.ndarray
     n_params: int
     kappa: float | None = None
+
+
+EXACT_FIT_TOLERANCE = 1e-10
+"""Share of the outcome's sum of squares about its mean below which a least-squares fit counts as exact."""
+
+
+def refuse_exact_fit(data: np.ndarray, fit: LinearFit, *, outcome: str, model: str) -> None:
+    """Raise a DesignError when ``fit`` (least squares on ``data = [y, ...]``) reproduces the outcome exactly.
+
+    With zero residuals the residual variance, every standard error and every
+    test is 0/0, and rounding leaves residual sums of squares of either sign.
+    The residual ``e = A c`` is computed from the rows, not from the
+    cross-product, because ``c' A'A c`` loses the digits that tell an exact
+    fit from a close one. The fit counts as exact when ``e'e`` is at most
+    :data:`EXACT_FIT_TOLERANCE` times the outcome's sum of squares about its
+    mean (an R-squared within 1e-10 of one).
+    """
+    residual = data @ fit.residual
+    outcome_values = data[:, 0]
+    spread = float(np.sum((outcome_values - outcome_values.mean()) ** 2))
+    if float(residual @ residual) > EXACT_FIT_TOLERANCE * spread:
+        return
+    regressors = ", ".join(term for term in fit.terms) or "no regressor"
+    raise DesignError(
+        f"'{outcome}' is an exact linear function of {regressors} in the {model}: the fit leaves "
+        "no residual, so no standard error or test can be computed. Check for a control that copies or is "
+        "computed from the outcome, or for too few rows"
+    )

@@ -62,13 +62,12 @@ from app.errors import DesignError
 from app.estimation.covariance import ClusterRobust, Homoskedastic, VarianceEstimator, variance_estimator
 from app.estimation.findings import EstimateRow, EstimatorSummary, Findings, TestResult
 from app.estimation.first_stage import first_stages
-from app.estimation.fits import LinearFit
+from app.estimation.fits import LinearFit, refuse_exact_fit
 from app.estimation.inference import chi2_p, coefficient_rows, f_p
 from app.estimation.kclass import kclass
 from app.estimation.linalg import SingularMatrixError, inverse_pd
 from app.estimation.moments import Layout, Moments
-from app.estimation.selection import refuse_exact_fit, with_analysed_fit
-from app.estimation.sensitivity import benchmark_groups, sensitivity_diagnostics
+from app.estimation.sensitivity import benchmark_groups, sensitivity_diagnostics, with_analysed_fit
 from app.spec import ClaimSpec, CovarianceKind, Design
 
 ESTIMATORS: dict[str, tuple[str, str, str]] = {

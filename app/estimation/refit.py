@@ -20,7 +20,7 @@ from app.estimation.covariance import VarianceEstimator, variance_estimator
 from app.estimation.endogeneity import endogeneity_tests
 from app.estimation.findings import EstimateRow, EstimatorSummary, Findings, TestResult
 from app.estimation.first_stage import first_stages, reduced_form
-from app.estimation.fits import LinearFit
+from app.estimation.fits import LinearFit, refuse_exact_fit
 from app.estimation.gmm import GmmFit, two_step_gmm
 from app.estimation.inference import coefficient_rows
 from app.estimation.instrument_diagnostics import INSTRUMENT_DIAGNOSTIC_KEYS, instrument_diagnostics
@@ -33,8 +33,8 @@ from app.estimation.overidentification import overidentification_tests
 from app.estimation.panel import ESTIMATORS as PANEL_ESTIMATORS
 from app.estimation.panel import refit_panel
 from app.estimation.selection import ESTIMATORS as SELECTION_ESTIMATORS
-from app.estimation.selection import refit_selection, refuse_exact_fit, with_analysed_fit
-from app.estimation.sensitivity import benchmark_groups, sensitivity_diagnostics
+from app.estimation.selection import refit_selection
+from app.estimation.sensitivity import benchmark_groups, sensitivity_diagnostics, with_analysed_fit
 from app.spec import ClaimSpec, Design
 
 ESTIMATORS: dict[str, tuple[str, str, str]] = {

@@ -60,12 +60,12 @@ from app.data.design import DesignMatrices, build_design, check_columns_exist, n
 from app.errors import DesignError
 from app.estimation.covariance import VarianceEstimator, variance_estimator
 from app.estimation.findings import EstimateRow, EstimatorSummary, Findings, TestResult
-from app.estimation.fits import LinearFit
+from app.estimation.fits import LinearFit, refuse_exact_fit
 from app.estimation.inference import coefficient_rows, critical_value, two_sided_p
 from app.estimation.kclass import kclass
 from app.estimation.moments import Layout, Moments
 from app.estimation.probit import ProbitFit, fit_probit, mills_ratio
-from app.estimation.sensitivity import benchmark_groups, sensitivity_diagnostics
+from app.estimation.sensitivity import benchmark_groups, sensitivity_diagnostics, with_analysed_fit
 from app.spec import ClaimSpec, CovarianceKind, Design
 
 ESTIMATORS: dict[str, tuple[str, str, str]] = {
@@ -97,8 +97,6 @@ NAIVE = {
 MILLS = "inverse Mills ratio"
 RESIDUAL = "generalized residual"
 SELECTION_SOURCE = "Heckman (1979); Wooldridge (2010), sec. 19.6.1"
-EXACT_FIT_TOLERANCE = 1e-10
-"""Share of the outcome's sum of squares about its mean below which a least-squares fit counts as exact."""
 SELECTION_NULL = "the outcome's error is unrelated to selection (rho = 0): OLS on the selected rows is consistent"
 TREATMENT_NULL = "the treatment is unrelated to the outcome's error (rho = 0): OLS is consistent"
 
@@ -428,42 +426,6 @@ def _ols_step(
         raise DesignError(f"{data.shape[0]:,} rows for {layout.width - 1} coefficients in the outcome equation")
     variance = variance_estimator(spec.covariance, moments, data, clusters)
     return SecondStep(fit=kclass(moments, kappa=0.0, code=code, terms=terms), moments=moments, variance=variance, data=data)
-
-
-def refuse_exact_fit(data: np.ndarray, fit: LinearFit, *, outcome: str, model: str) -> None:
-    """Raise a DesignError when ``fit`` (least squares on ``data = [y, ...]``) reproduces the outcome exactly.
-
-    With zero residuals the residual variance, every standard error and every
-    test is 0/0, and rounding leaves residual sums of squares of either sign.
-    The residual ``e = A c`` is computed from the rows, not from the
-    cross-product, because ``c' A'A c`` loses the digits that tell an exact
-    fit from a close one. The fit counts as exact when ``e'e`` is at most
-    :data:`EXACT_FIT_TOLERANCE` times the outcome's sum of squares about its
-    mean (an R-squared within 1e-10 of one).
-    """
-    residual = data @ fit.residual
-    outcome_values = data[:, 0]
-    spread = float(np.sum((outcome_values - outcome_values.mean()) ** 2))
-    if float(residual @ residual) > EXACT_FIT_TOLERANCE * spread:
-        return
-    regressors = ", ".join(term for term in fit.terms) or "no regressor"
-    raise DesignError(
-        f"'{outcome}' is an exact linear function of {regressors} in the {model}: the fit leaves "
-        "no residual, so no standard error or test can be computed. Check for a control that copies or is "
-        "computed from the outcome, or for too few rows"
-    )
-
-
-def with_analysed_fit(results: dict[str, list[TestResult]], code: str) -> dict[str, list[TestResult]]:
-    """Omitted-cause analyses marked with the estimator whose regression they analyse (key ``estimator``).
-
-    The checklist judges them only when that estimator is the claimed one, and
-    names it in the evidence either way.
-    """
-    return {
-        key: [dataclasses.replace(result, details={**result.details, "estimator": code}) for result in entries]
-        for key, entries in results.items()
-    }
 
 
 def _rows(step: SecondStep) -> list[EstimateRow]:

@@ -41,6 +41,7 @@ omitted variable bias. Journal of the Royal Statistical Society, Series B
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from dataclasses import dataclass
 
@@ -293,4 +294,16 @@ def contour_grid(regression: FocalRegression, *, bounds: list[dict[str, object]]
         "adjusted_estimate": estimates,
         "adjusted_t": t_values,
         "critical_t": float(stats.t.ppf(1.0 - alpha / 2, regression.df - 1)),
+    }
+
+
+def with_analysed_fit(results: dict[str, list[TestResult]], code: str) -> dict[str, list[TestResult]]:
+    """Omitted-cause analyses marked with the estimator whose regression they analyse (key ``estimator``).
+
+    The checklist judges them only when that estimator is the claimed one, and
+    names it in the evidence either way.
+    """
+    return {
+        key: [dataclasses.replace(result, details={**result.details, "estimator": code}) for result in entries]
+        for key, entries in results.items()
     }
