@@ -255,6 +255,17 @@ def post_file(base: str, path: str, source: Path, *, name: str, headers: dict[st
         return response.status, response.read()
 
 
+def make_distinct(csv_path: Path, number: int) -> None:
+    """Write ``number`` (two digits) over the last two digits of the file: same size and layout, new content."""
+    with csv_path.open("r+b") as handle:
+        handle.seek(-64, os.SEEK_END)
+        tail = handle.read()
+        digits = [position for position, byte in enumerate(tail) if chr(byte).isdigit()][-2:]
+        for position, digit in zip(digits, f"{number % 100:02d}", strict=True):
+            handle.seek(-64 + position, os.SEEK_END)
+            handle.write(digit.encode())
+
+
 def upload_benchmark(base: str, signed_in: SignedIn, csv_path: Path, *, megabytes: float, rounds: int) -> None:
     """Upload a CSV through the API against pyarrow's reader on the same file, in interleaved rounds.
 
@@ -264,6 +275,9 @@ def upload_benchmark(base: str, signed_in: SignedIn, csv_path: Path, *, megabyte
     hashing and writing without reading or profiling), and the data layer's
     reader and profiler alone in this process. The machine's speed drifts,
     so each round's ratio is taken against the reference of the same round.
+    Each round's file differs from the others in its last digits, so that
+    every upload is new content that the server must keep durably (a repeated
+    upload is found already stored and skips that).
     """
     write_csv(csv_path, megabytes=megabytes)
     size = csv_path.stat().st_size
@@ -284,7 +298,8 @@ def upload_benchmark(base: str, signed_in: SignedIn, csv_path: Path, *, megabyte
         "app.data.profile.profile_frame alone": lambda: profile_frame(frame),
     }
     times: dict[str, list[float]] = {label: [] for label in steps}
-    for _ in range(rounds):
+    for round_number in range(rounds):
+        make_distinct(csv_path, round_number)
         for label, work in steps.items():
             times[label].append(timed(work))
     reference = times["pyarrow.csv.read_csv (reference)"]
