@@ -218,9 +218,14 @@ def variants_for_claim(frame: pd.DataFrame, spec: ClaimSpec) -> dict[str, dict[s
     The web worker and ``secondstage check`` both call this, so a standard
     error that does not reproduce gets the same explanation everywhere.
     """
-    if spec.claimed is None or spec.claimed.std_error is None:
+    if not reports_standard_error(spec):
         return None
     return covariance_variants(frame, spec)
+
+
+def reports_standard_error(spec: ClaimSpec) -> bool:
+    """Whether the claim prints a standard error: the one number that :func:`covariance_variants` explains."""
+    return spec.claimed is not None and spec.claimed.std_error is not None
 
 
 def covariance_variants(frame: pd.DataFrame, spec: ClaimSpec) -> dict[str, dict[str, Any]]:

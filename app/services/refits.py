@@ -21,7 +21,7 @@ from app.auth.roles import Action
 from app.errors import SecondStageError
 from app.estimation.refit import refit
 from app.provenance import refit_provenance
-from app.review.reproduction import covariance_variants
+from app.review.reproduction import covariance_variants, reports_standard_error
 from app.services import checklists
 from app.services.context import ServiceContext
 from app.services.datasets import load_frame
@@ -143,7 +143,7 @@ def run_refit(ctx: ServiceContext, refit_id: int) -> None:
         provenance = refit_provenance(dataset_sha256=dataset.sha256, spec=spec, data_file_name=data_file_name)
         findings = refit(frame, spec, provenance=provenance).to_dict()
         variants = None
-        if spec.claimed is not None and spec.claimed.std_error is not None:
+        if reports_standard_error(spec):
             _set_stage(ctx, refit_id, STAGES[3])
             variants = covariance_variants(frame, spec)
         del frame
