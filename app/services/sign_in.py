@@ -94,7 +94,7 @@ def sign_in(ctx: ServiceContext, *, name: str, password: str, address: str) -> S
         with ctx.transaction() as session:
             record_audit(
                 session,
-                actor=Actor(name=name or "(no name)", kind="user", via="sign-in form"),
+                actor=_claimed_name(name),
                 action=FAILED,
                 subject=name,
                 detail="wrong name or password",
@@ -117,13 +117,18 @@ def record_untold_refusals(ctx: ServiceContext) -> None:
         _record_refusals(ctx, name, count, address="")
 
 
+def _claimed_name(name: str) -> Actor:
+    """Who a refused sign-in says it is: the name typed into the form, before any password is checked."""
+    return Actor(name=name or "(no name)", kind="user", via="sign-in form")
+
+
 def _record_refusals(ctx: ServiceContext, name: str, count: int, *, address: str) -> None:
     """One audit entry for ``count`` attempts on an account refused by the limits."""
     attempts = "1 attempt" if count == 1 else f"{count} attempts"
     with ctx.transaction() as session:
         record_audit(
             session,
-            actor=Actor(name=name or "(no name)", kind="user", via="sign-in form"),
+            actor=_claimed_name(name),
             action=REFUSED,
             subject=name,
             detail=f"{attempts} refused without checking the password: too many recent failed sign-ins for this "
